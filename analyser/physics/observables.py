@@ -1,0 +1,233 @@
+"""The forward model: what the instruments see of a star at given arrival epochs.
+
+    x (East, mas) = X(t_em) * 1000 / R0 + x0 + vx0 (t_obs - t_ref)
+    y (North, mas) = Y(t_em) * 1000 / R0 + y0 + vy0 (t_obs - t_ref)
+    v (km/s, c z)  = v_z(t_em) + f_z (c z_tot - v_z) + vz0
+
+(X, Y, Z) is the star's position relative to the central mass in AU,
+t_em its emission time from the Roemer delay (light.py).  Three dynamics are
+available by name (DYNAMICS): "kepler", "analytic-1pn" (orbits.py, default)
+and "numerical-1pn" (integrator.py).
+
+Two levels of interface:
+  * `predict_observables(globals, elements, epochs, dynamics)` for one star,
+    with the parameter names used throughout the package and its results;
+  * `observe_stars` / `build_orbits`, compiled kernels for many stars and many
+    epochs in one call, used by the likelihood.
+"""
+
+import math
+from typing import NamedTuple
+
+import numpy as np
+from numba import njit
+
+from .constants import C_AU_YR, GM_SUN, KM_S_PER_AU_YR
+from .elements import ELEMENT_KEYS, semi_major_axis_au
+from .dynamics import ANALYTIC_1PN, NUMERICAL_1PN, star_state
+from .integrator import STEPS_PER_ORBIT, integrate_nodes
+from .kepler import E_MAX
+from .light import emission_state, line_of_sight_velocity
+from .orbits import ORBIT_SIZE, orbit_constants, orbit_state
+
+DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
+GLOBAL_KEYS = ("mass_msun", "distance_pc", "x0_mas", "y0_mas", "vx0_mas_yr",
+               "vy0_mas_yr", "vz0_km_s", "f_sp", "f_z", "t_ref_yr")
+
+# Columns of the per-star element array handed to the kernels.
+EL_PERIOD, EL_E, EL_I, EL_BIG_OMEGA, EL_OMEGA, EL_TP = range(6)
+# Entries of the frame array: x0, y0 (mas), vx0, vy0 (mas/yr), vz0 (km/s), t_ref (yr)
+FRAME_SIZE = 6
+
+
+class Observables(NamedTuple):
+    """Model observables at the requested epochs."""
+    x_mas: np.ndarray
+    y_mas: np.ndarray
+    v_km_s: np.ndarray
+
+
+# ---------------------------------------------------------------- compiled kernels
+
+@njit(cache=True)
+def build_orbits(elements, mu, eps):
+    """Packed closed-form orbits (n_star, ORBIT_SIZE) from element rows.
+
+    `elements` rows are (P yr, e, i rad, Omega rad, omega rad, t_p yr);
+    eps = f_SP / c^2, zero for the Newtonian orbit.
+    """
+    out = np.empty((elements.shape[0], ORBIT_SIZE))
+    for s in range(elements.shape[0]):
+        row = elements[s]
+        orbit_constants(row[0], row[1], row[2], row[3], row[4], row[5], mu, eps, out[s])
+    return out
+
+
+@njit(cache=True)
+def _observe_one(kind, orbit, nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                 light_travel, out_x, out_y, out_v, out_t_em):
+    for k in range(t_obs.size):
+        if light_travel:
+            x, y, z, vx, vy, vz, t_em = emission_state(kind, orbit, nodes, par, t_obs[k], c)
+        else:
+            t_em = t_obs[k]
+            x, y, z, vx, vy, vz = star_state(kind, orbit, nodes, par, t_em)
+        dt = t_obs[k] - frame[5]
+        out_x[k] = x * mas_per_au + frame[0] + frame[2] * dt
+        out_y[k] = y * mas_per_au + frame[1] + frame[3] * dt
+        out_t_em[k] = t_em
+        if need_v[k]:
+            r = math.sqrt(x * x + y * y + z * z)
+            v = line_of_sight_velocity(vx, vy, vz, r, mu, c, f_z)
+            out_v[k] = v * KM_S_PER_AU_YR + frame[4]
+        else:
+            out_v[k] = np.nan
+
+
+@njit(cache=True)
+def observe_stars(orbits, first, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                  out_x, out_y, out_v, out_t_em, light_travel=True):
+    """Closed-form observables for many stars in one call.
+
+    Observations of star s occupy rows first[s]:first[s+1] of t_obs (arrival
+    epochs, yr), need_v (whether a velocity is wanted) and the outputs.
+    """
+    no_nodes = np.empty((0, 7))
+    no_par = np.empty(3)
+    for s in range(orbits.shape[0]):
+        lo, hi = first[s], first[s + 1]
+        _observe_one(ANALYTIC_1PN, orbits[s], no_nodes, no_par, t_obs[lo:hi], need_v[lo:hi],
+                     mu, c, f_z, mas_per_au, frame, light_travel, out_x[lo:hi],
+                     out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
+
+
+@njit(cache=True)
+def observe_integrated(nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                       out_x, out_y, out_v, out_t_em, light_travel=True):
+    """Observables of one star from integration nodes (par = (ds, mu, eps))."""
+    _observe_one(NUMERICAL_1PN, np.empty(ORBIT_SIZE), nodes, par, t_obs, need_v, mu, c, f_z,
+                 mas_per_au, frame, light_travel, out_x, out_y, out_v, out_t_em)
+
+
+@njit(cache=True)
+def integrate_star(row, mu, eps, c, t_lo, t_hi, steps_per_orbit):
+    """Integration nodes of one star covering arrival epochs [t_lo, t_hi]."""
+    period, e, i, big_omega, omega, t_p = row[0], row[1], row[2], row[3], row[4], row[5]
+    a = (mu * period * period / (4.0 * math.pi * math.pi)) ** (1.0 / 3.0)
+    kep = np.empty(ORBIT_SIZE)
+    orbit_constants(period, e, i, big_omega, omega, t_p, mu, 0.0, kep)
+    x, y, z, vx, vy, vz = orbit_state(kep, t_p)
+    pos = np.array((x, y, z))
+    vel = np.array((vx, vy, vz))
+    margin = a * (1.0 + e) / c * 1.5 + 1e-6
+    ds = period / a / steps_per_orbit
+    nodes = integrate_nodes(pos, vel, t_p, mu, eps, min(t_lo, t_p) - margin,
+                            max(t_hi, t_p) + margin, ds)
+    par = np.array((ds, mu, eps))
+    return nodes, par
+
+
+# ---------------------------------------------------------------- public interface
+
+def _check_inputs(glob, elements, dynamics):
+    if dynamics not in DYNAMICS:
+        raise ValueError(f"unknown dynamics {dynamics!r}; choose one of {', '.join(DYNAMICS)}")
+    missing = [k for k in GLOBAL_KEYS if k not in glob]
+    if missing:
+        raise KeyError(f"globals lack {', '.join(missing)}")
+    missing = [k for k in ELEMENT_KEYS if k not in elements]
+    if missing:
+        raise KeyError(f"elements lack {', '.join(missing)}")
+    if not 0.0 <= elements["e"] <= E_MAX:
+        raise ValueError(f"eccentricity {elements['e']} outside [0, {E_MAX}]")
+    for key in ("mass_msun", "distance_pc"):
+        if not glob[key] > 0:
+            raise ValueError(f"{key} must be positive, got {glob[key]}")
+    if not elements["period_yr"] > 0:
+        raise ValueError(f"period_yr must be positive, got {elements['period_yr']}")
+
+
+def _epochs_yr(epochs):
+    """Decimal Julian years from floats or an astropy Time."""
+    try:
+        from astropy.time import Time
+    except ImportError:  # pragma: no cover - astropy is a dependency
+        Time = ()
+    if isinstance(epochs, Time):
+        return np.atleast_1d(epochs.tt.jyear).astype(float)
+    return np.atleast_1d(np.asarray(epochs, dtype=float))
+
+
+def element_row(elements):
+    """Kernel element row (P, e, i, Omega, omega in rad, t_p) from a dict."""
+    return np.array([elements["period_yr"], elements["e"], math.radians(elements["i_deg"]),
+                     math.radians(elements["Omega_deg"]), math.radians(elements["omega_deg"]),
+                     elements["t_p_yr"]], dtype=float)
+
+
+def frame_row(glob):
+    """Kernel frame array (x0, y0, vx0, vy0, vz0, t_ref) from a globals dict."""
+    return np.array([glob["x0_mas"], glob["y0_mas"], glob["vx0_mas_yr"], glob["vy0_mas_yr"],
+                     glob["vz0_km_s"], glob["t_ref_yr"]], dtype=float)
+
+
+def _evaluate(glob, elements, epochs, dynamics, light_travel=True,
+              steps_per_orbit=STEPS_PER_ORBIT):
+    _check_inputs(glob, elements, dynamics)
+    t = _epochs_yr(epochs)
+    mu = GM_SUN * glob["mass_msun"]
+    eps = 0.0 if dynamics == "kepler" else glob["f_sp"] / C_AU_YR**2
+    mas_per_au = 1000.0 / glob["distance_pc"]
+    row = element_row(elements)
+    frame = frame_row(glob)
+    need_v = np.ones(t.size, dtype=np.bool_)
+    out = [np.empty(t.size) for _ in range(4)]
+    if dynamics == "numerical-1pn":
+        nodes, par = integrate_star(row, mu, eps, C_AU_YR, t.min(), t.max(), steps_per_orbit)
+        observe_integrated(nodes, par, t, need_v, mu, C_AU_YR, glob["f_z"], mas_per_au,
+                           frame, *out, light_travel)
+    else:
+        orbits = build_orbits(row[None, :], mu, eps)
+        observe_stars(orbits, np.array([0, t.size]), t, need_v, mu, C_AU_YR, glob["f_z"],
+                      mas_per_au, frame, *out, light_travel)
+    return out
+
+
+def predict_observables(globals, elements, epochs, dynamics="analytic-1pn", light_travel=True):
+    """Sky offsets and line-of-sight velocity of one star at arrival epochs.
+
+    Parameters
+    ----------
+    globals : dict
+        mass_msun (M_sun), distance_pc (pc), x0_mas, y0_mas (mas),
+        vx0_mas_yr, vy0_mas_yr (mas/yr), vz0_km_s (km/s), f_sp, f_z
+        (dimensionless; 0 Newtonian, 1 general relativity) and t_ref_yr
+        (reference epoch of the frame terms, decimal Julian year).
+    elements : dict
+        period_yr, e, i_deg, Omega_deg, omega_deg, t_p_yr: the osculating
+        Keplerian elements at the periapsis epoch t_p (coordinate time).
+    epochs : array_like or astropy.time.Time
+        Arrival epochs in decimal Julian years (t = 2000 + (JD - 2451545)/365.25).
+    dynamics : {"kepler", "analytic-1pn", "numerical-1pn"}
+    light_travel : bool
+        Solve the Roemer delay (default).  False evaluates the orbit at the
+        arrival epochs themselves, for studying the size of the effect.
+
+    Returns
+    -------
+    Observables
+        (x_mas, y_mas, v_km_s): x toward East, y toward North, v = c z
+        positive when receding, each an array over epochs.
+    """
+    x, y, v, _ = _evaluate(globals, elements, epochs, dynamics, light_travel)
+    return Observables(x, y, v)
+
+
+def emission_epochs(globals, elements, epochs, dynamics="analytic-1pn"):
+    """Coordinate times (yr) at which the light arriving at `epochs` left the star."""
+    return _evaluate(globals, elements, epochs, dynamics)[3]
+
+
+def semi_major_axis_mas(elements, globals):
+    """Angular semi-major axis (mas) of the osculating orbit."""
+    return semi_major_axis_au(elements["period_yr"], globals["mass_msun"]) * 1000.0 / globals["distance_pc"]
