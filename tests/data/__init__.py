@@ -1,0 +1,1 @@
+"""Invented campaigns for the loader tests."""
