@@ -5,3 +5,9 @@ model -> joint nested-sampling fit -> results bundle -> review report.
 """
 
 __version__ = "0.1.0"
+
+from pathlib import Path as _Path
+
+from . import _compiled_cache
+
+_compiled_cache.configure(_Path(__file__).parent)

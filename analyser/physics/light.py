@@ -26,8 +26,9 @@ _MAX_ITER = 12
 
 
 @njit(cache=True)
-def emission_state(kind, orbit, nodes, par, t_obs, c):
-    """Solve the Roemer delay for one arrival time.
+def emission_state(kind, orbit, nodes, par, t_obs, c, mu):
+    """Solve the Roemer delay for one arrival time (mu = G M, for the final
+    first-order step).
 
     The orbit is described as for `dynamics.start_phase`.  Returns the state
     at emission (x, y, z, vx, vy, vz in AU, AU/yr) and t_em (yr).
@@ -38,7 +39,13 @@ def emission_state(kind, orbit, nodes, par, t_obs, c):
         x, y, z, vx, vy, vz = phase_to_state(kind, orbit, phase)
         step = (t_em + z / c - t_obs) / (1.0 + vz / c)
         if abs(step) < ROEMER_TOL_YR:
-            return x, y, z, vx, vy, vz, t_em
+            # take the last (tiny) step to first order, so that the result is a
+            # smooth function of the orbit rather than jumping with the
+            # iteration count (finite-difference derivatives depend on it)
+            r3 = (x * x + y * y + z * z) ** 1.5
+            g = mu * step / r3
+            return (x - vx * step, y - vy * step, z - vz * step, vx + g * x, vy + g * y,
+                    vz + g * z, t_em - step)
         t_em -= step
         phase = advance_phase(kind, orbit, nodes, par, phase, -step, t_em)
     raise ArithmeticError("Roemer delay iteration did not converge")

@@ -28,7 +28,7 @@ from .dynamics import ANALYTIC_1PN, NUMERICAL_1PN, star_state
 from .integrator import STEPS_PER_ORBIT, integrate_nodes
 from .kepler import E_MAX
 from .light import emission_state, line_of_sight_velocity
-from .orbits import ORBIT_SIZE, orbit_constants, orbit_state
+from .orbits import MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, orbit_constants, orbit_state
 
 DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
 GLOBAL_KEYS = ("mass_msun", "distance_pc", "x0_mas", "y0_mas", "vx0_mas_yr",
@@ -64,11 +64,13 @@ def build_orbits(elements, mu, eps):
 
 
 @njit(cache=True)
-def _observe_one(kind, orbit, nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+def observe_star(kind, orbit, nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
                  light_travel, out_x, out_y, out_v, out_t_em):
+    """Observables of one star at arrival epochs t_obs (see dynamics.start_phase
+    for kind/orbit/nodes/par); velocities only where need_v."""
     for k in range(t_obs.size):
         if light_travel:
-            x, y, z, vx, vy, vz, t_em = emission_state(kind, orbit, nodes, par, t_obs[k], c)
+            x, y, z, vx, vy, vz, t_em = emission_state(kind, orbit, nodes, par, t_obs[k], c, mu)
         else:
             t_em = t_obs[k]
             x, y, z, vx, vy, vz = star_state(kind, orbit, nodes, par, t_em)
@@ -96,7 +98,7 @@ def observe_stars(orbits, first, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
     no_par = np.empty(3)
     for s in range(orbits.shape[0]):
         lo, hi = first[s], first[s + 1]
-        _observe_one(ANALYTIC_1PN, orbits[s], no_nodes, no_par, t_obs[lo:hi], need_v[lo:hi],
+        observe_star(ANALYTIC_1PN, orbits[s], no_nodes, no_par, t_obs[lo:hi], need_v[lo:hi],
                      mu, c, f_z, mas_per_au, frame, light_travel, out_x[lo:hi],
                      out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
 
@@ -105,7 +107,7 @@ def observe_stars(orbits, first, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
 def observe_integrated(nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
                        out_x, out_y, out_v, out_t_em, light_travel=True):
     """Observables of one star from integration nodes (par = (ds, mu, eps))."""
-    _observe_one(NUMERICAL_1PN, np.empty(ORBIT_SIZE), nodes, par, t_obs, need_v, mu, c, f_z,
+    observe_star(NUMERICAL_1PN, np.empty(ORBIT_SIZE), nodes, par, t_obs, need_v, mu, c, f_z,
                  mas_per_au, frame, light_travel, out_x, out_y, out_v, out_t_em)
 
 
@@ -231,3 +233,22 @@ def emission_epochs(globals, elements, epochs, dynamics="analytic-1pn"):
 def semi_major_axis_mas(elements, globals):
     """Angular semi-major axis (mas) of the osculating orbit."""
     return semi_major_axis_au(elements["period_yr"], globals["mass_msun"]) * 1000.0 / globals["distance_pc"]
+
+
+def periapsis_passage(globals, elements, n, dynamics="analytic-1pn"):
+    """Elements referred to the n-th periapsis passage after t_p (n may be < 0).
+
+    In the closed-form 1PN orbit every passage has the same periapsis
+    distance and speed, so P and e are unchanged; t_p moves by n radial
+    periods and omega by n periapsis advances.  Kepler: t_p moves by n P.
+    Also returns the radial period (yr).
+    """
+    _check_inputs(globals, elements, dynamics)
+    eps = 0.0 if dynamics == "kepler" else globals["f_sp"] / C_AU_YR**2
+    orbit = build_orbits(element_row(elements)[None, :], GM_SUN * globals["mass_msun"], eps)[0]
+    radial_period = 2.0 * math.pi / orbit[MEAN_MOTION]
+    advance_deg = 360.0 * (orbit[ONE_PLUS_K] - 1.0)
+    out = dict(elements)
+    out["t_p_yr"] = elements["t_p_yr"] + n * radial_period
+    out["omega_deg"] = (elements["omega_deg"] + n * advance_deg) % 360.0
+    return out, radial_period

@@ -64,6 +64,17 @@ ORBIT_SIZE = 14
 
 
 @njit(cache=True)
+def orbit_is_bound(orbit):
+    """Whether packed constants describe a bound orbit the solvers can follow
+    (a strong f_SP near a very eccentric periapsis can unbind or plunge it)."""
+    for k in range(ORBIT_SIZE):
+        if not math.isfinite(orbit[k]):
+            return False
+    return (orbit[MEAN_MOTION] > 0.0 and 0.0 <= orbit[E_T] <= 0.999
+            and 0.0 <= orbit[E_R] < 1.0 and orbit[A_R] > 0.0)
+
+
+@njit(cache=True)
 def orbit_constants(period, e, i, big_omega, omega, t_p, mu, eps, out):
     """Fill `out` (ORBIT_SIZE floats) with the quasi-Keplerian constants.
 
