@@ -182,7 +182,7 @@ class SamplerSettings:
     slices: int = 0            # 0: the engine's default
     proposal_widen: float = 2.0
     proposal_dof: float = 3.0
-    prefit_starts: int = 24
+    prefit_starts: int = 12
     checkpoint_seconds: float = 120.0
     max_calls: int = 0         # 0: no limit
 

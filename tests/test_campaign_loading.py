@@ -212,7 +212,7 @@ def test_sampler_settings_and_gates(files):
     assert campaign.sampler.live_points == 800
     assert campaign.sampler.dlogz == 0.05
     assert campaign.sampler.engine == "stock"
-    assert campaign.sampler.prefit_starts == 24          # untouched default
+    assert campaign.sampler.prefit_starts == 12          # untouched default
     assert [g.kind for g in campaign.gates] == ["shift", "shift", "reduced_chi2", "min_ess"]
     assert campaign.gates[1].parameter == "QV-1.*"
     assert campaign.gates[2].instrument == "ORCA"

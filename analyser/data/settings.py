@@ -200,7 +200,7 @@ SAMPLER_RULES = {
               "none, single, multi, balls or cubes"),
     "slices": (INTEGER, lambda v: v >= 0, "0 (the engine's default) or more"),
     "proposal_widen": (NUMBER, lambda v: v > 0, "positive"),
-    "proposal_dof": (NUMBER, lambda v: v > 0, "positive"),
+    "proposal_dof": (NUMBER, lambda v: v in (2, 3), "2 or 3 (Student-t degrees of freedom with closed forms)"),
     "prefit_starts": (INTEGER, lambda v: v >= 1, "at least 1"),
     "checkpoint_seconds": (NUMBER, lambda v: v > 0, "positive"),
     "max_calls": (INTEGER, lambda v: v >= 0, "0 (no limit) or more"),

@@ -24,10 +24,10 @@ from numba import njit
 
 from .constants import C_AU_YR, GM_SUN, KM_S_PER_AU_YR
 from .elements import ELEMENT_KEYS, semi_major_axis_au
-from .dynamics import ANALYTIC_1PN, NUMERICAL_1PN, star_state
+from .dynamics import ANALYTIC_1PN, NUMERICAL_1PN, advance_phase, start_phase, star_state
 from .integrator import STEPS_PER_ORBIT, integrate_nodes
 from .kepler import E_MAX
-from .light import emission_state, line_of_sight_velocity
+from .light import emission_from, line_of_sight_velocity
 from .orbits import MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, orbit_constants, orbit_state
 
 DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
@@ -68,9 +68,23 @@ def observe_star(kind, orbit, nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au,
                  light_travel, out_x, out_y, out_v, out_t_em):
     """Observables of one star at arrival epochs t_obs (see dynamics.start_phase
     for kind/orbit/nodes/par); velocities only where need_v."""
+    have_previous = False
+    delay = 0.0
+    phase = start_phase(kind, orbit, nodes, par, t_obs[0]) if t_obs.size else \
+        (0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
+    t_phase = t_obs[0] if t_obs.size else 0.0
     for k in range(t_obs.size):
         if light_travel:
-            x, y, z, vx, vy, vz, t_em = emission_state(kind, orbit, nodes, par, t_obs[k], c, mu)
+            # start from the previous epoch: same delay, its phase moved on
+            guess = t_obs[k] - delay
+            if have_previous:
+                phase = advance_phase(kind, orbit, nodes, par, phase, guess - t_phase, guess)
+            else:
+                phase = start_phase(kind, orbit, nodes, par, guess)
+            x, y, z, vx, vy, vz, t_em, phase, t_phase = emission_from(
+                kind, orbit, nodes, par, t_obs[k], c, mu, phase, guess)
+            delay = t_obs[k] - t_em
+            have_previous = True
         else:
             t_em = t_obs[k]
             x, y, z, vx, vy, vz = star_state(kind, orbit, nodes, par, t_em)
@@ -252,3 +266,21 @@ def periapsis_passage(globals, elements, n, dynamics="analytic-1pn"):
     out["t_p_yr"] = elements["t_p_yr"] + n * radial_period
     out["omega_deg"] = (elements["omega_deg"] + n * advance_deg) % 360.0
     return out, radial_period
+
+
+def with_radial_period(globals, elements, dynamics="analytic-1pn"):
+    """Elements whose radial (periapsis-to-periapsis) period is elements' period_yr.
+
+    Published orbits quote the period the star is seen to repeat with; the
+    elements here are osculating at t_p, whose period differs from that by a
+    few per cent for the most relativistic orbits.  This finds the osculating
+    period that reproduces the published one.
+    """
+    from scipy.optimize import brentq
+    target = elements["period_yr"]
+
+    def excess(p):
+        return periapsis_passage(globals, dict(elements, period_yr=p), 0, dynamics)[1] - target
+
+    period = brentq(excess, 0.5 * target, 1.5 * target, xtol=1e-12 * target)
+    return dict(elements, period_yr=period)

@@ -1,0 +1,326 @@
+"""The likelihood of a campaign's data, star by star, compiled.
+
+    ln L = sum over stars s of ln L_s(globals, nuisances, star s)
+
+Each astrometric epoch is a bivariate Gaussian in (x, y) with its error
+correlation; each velocity a Gaussian; the normalisation terms are kept so
+that error scales and jitters are inferable.  An instrument with an outlier
+mixture replaces each point's density p by (1 - q) p + q p_W, p_W the same
+density with errors W times larger.  Instrument terms: astrometric offsets
+and velocity zero points are added to the model, error scales multiply the
+quoted errors, jitters add in quadrature.
+
+The data live in a tuple of arrays (`DataArrays`) so that compiled code can
+hold them; parameters are read from the full vector of layout.py.
+`star_loglike` is the per-star term the block sampler updates one star at a
+time with; `JointModel` is the Python face used by the prefit and results.
+"""
+
+import math
+from typing import NamedTuple
+
+import numpy as np
+from numba import njit
+
+from ..physics.constants import C_AU_YR, GM_SUN
+from ..physics.dynamics import KIND_BY_NAME, NUMERICAL_1PN
+from ..physics.integrator import STEPS_PER_ORBIT
+from ..physics.observables import integrate_star, observe_star
+from ..physics.orbits import MEAN_MOTION, ORBIT_SIZE, T_P, orbit_constants, orbit_is_bound
+from .layout import N_GLOBAL, N_STAR, build_layout
+
+_LOG_2PI = math.log(2.0 * math.pi)
+_NO_NODES = np.empty((0, 7))
+_NO_PAR = np.empty(3)
+
+
+class DataArrays(NamedTuple):
+    dynamics: int
+    t_ref: float
+    star_offset: np.ndarray      # full-vector index of each star's first parameter
+    obs_first: np.ndarray        # per star: slice of obs_t (astrometry first, then velocities)
+    astro_first: np.ndarray      # per star: slice of the astrometry rows
+    vel_first: np.ndarray        # per star: slice of the velocity rows
+    obs_t: np.ndarray
+    obs_need_v: np.ndarray
+    ax: np.ndarray
+    ay: np.ndarray
+    asx: np.ndarray
+    asy: np.ndarray
+    arho: np.ndarray
+    ainst: np.ndarray
+    vv: np.ndarray
+    vs: np.ndarray
+    vinst: np.ndarray
+    inst_offx: np.ndarray        # full-vector index of each instrument's term, -1 if none
+    inst_offy: np.ndarray
+    inst_zp: np.ndarray
+    inst_scale: np.ndarray
+    inst_jitter: np.ndarray
+    inst_outlier: np.ndarray
+    inst_width: np.ndarray
+
+
+# ---------------------------------------------------------------- compiled core
+
+@njit(cache=True)
+def star_orbit(s, full, d, orbit):
+    """Packed closed-form orbit of star s (orbits.py).  The periapsis epoch is
+    t_p = t_ref - (phase mod 1) * P_r with P_r the radial period, so that the
+    phase is exactly periodic: each phase names one periapsis passage."""
+    o = d.star_offset[s]
+    period, e, cos_i = full[o], full[o + 1], full[o + 2]
+    inc = math.acos(max(-1.0, min(1.0, cos_i)))
+    eps = 0.0 if d.dynamics == 0 else full[7] / (C_AU_YR * C_AU_YR)
+    orbit_constants(period, e, inc, math.radians(full[o + 3]), math.radians(full[o + 4]),
+                    0.0, GM_SUN * full[0], eps, orbit)
+    phase = full[o + 5] - math.floor(full[o + 5])
+    orbit[T_P] = d.t_ref - phase * 2.0 * math.pi / orbit[MEAN_MOTION]
+
+
+@njit(cache=True)
+def star_predict(s, full, d, out_x, out_y, out_v):
+    """Model x, y (mas) at star s's astrometric rows and v (km/s) at its
+    velocity rows, instrument offsets included.  Returns False (outputs NaN)
+    when the parameters give no bound orbit."""
+    orbit = np.empty(ORBIT_SIZE)
+    star_orbit(s, full, d, orbit)
+    if not orbit_is_bound(orbit) or not (full[0] > 0.0 and full[1] > 0.0):
+        out_x[:] = np.nan
+        out_y[:] = np.nan
+        out_v[:] = np.nan
+        return False
+    mu = GM_SUN * full[0]
+    mas_per_au = 1000.0 / full[1]
+    frame = np.array((full[2], full[3], full[4], full[5], full[6], d.t_ref))
+    lo, hi = d.obs_first[s], d.obs_first[s + 1]
+    n = hi - lo
+    px = np.empty(n)
+    py = np.empty(n)
+    pv = np.empty(n)
+    pt = np.empty(n)
+    if d.dynamics == NUMERICAL_1PN:
+        o = d.star_offset[s]
+        row = np.array((full[o], full[o + 1], math.acos(max(-1.0, min(1.0, full[o + 2]))),
+                        math.radians(full[o + 3]), math.radians(full[o + 4]), orbit[T_P]))
+        nodes, par = integrate_star(row, mu, full[7] / (C_AU_YR * C_AU_YR), C_AU_YR,
+                                    d.obs_t[lo:hi].min(), d.obs_t[lo:hi].max(), STEPS_PER_ORBIT)
+        observe_star(NUMERICAL_1PN, orbit, nodes, par, d.obs_t[lo:hi], d.obs_need_v[lo:hi],
+                     mu, C_AU_YR, full[8], mas_per_au, frame, True, px, py, pv, pt)
+    else:
+        observe_star(1, orbit, _NO_NODES, _NO_PAR, d.obs_t[lo:hi], d.obs_need_v[lo:hi],
+                     mu, C_AU_YR, full[8], mas_per_au, frame, True, px, py, pv, pt)
+    a0 = d.astro_first[s]
+    na = d.astro_first[s + 1] - a0
+    for k in range(na):
+        inst = d.ainst[a0 + k]
+        ix, iy = d.inst_offx[inst], d.inst_offy[inst]
+        out_x[k] = px[k] + (full[ix] if ix >= 0 else 0.0)
+        out_y[k] = py[k] + (full[iy] if iy >= 0 else 0.0)
+    v0 = d.vel_first[s]
+    for k in range(d.vel_first[s + 1] - v0):
+        iz = d.inst_zp[d.vinst[v0 + k]]
+        out_v[k] = pv[na + k] + (full[iz] if iz >= 0 else 0.0)
+    return True
+
+
+@njit(cache=True)
+def _errors(inst, sigma, full, d):
+    """Effective error of a point of instrument `inst` with quoted error sigma."""
+    i_s = d.inst_scale[inst]
+    if i_s >= 0:
+        sigma = sigma * full[i_s]
+    i_j = d.inst_jitter[inst]
+    if i_j >= 0:
+        sigma = math.sqrt(sigma * sigma + full[i_j] * full[i_j])
+    return sigma
+
+
+@njit(cache=True)
+def _mixture(inst, q_form, log_norm, ndim, full, d):
+    """ln density of a point from its quadratic form and ln normalisation,
+    with the instrument's outlier mixture if it has one."""
+    core = -0.5 * q_form - log_norm
+    i_q = d.inst_outlier[inst]
+    if i_q < 0:
+        return core
+    q = full[i_q]
+    w = d.inst_width[inst]
+    broad = -0.5 * q_form / (w * w) - log_norm - ndim * math.log(w)
+    a = math.log1p(-q) + core if q < 1.0 else -np.inf
+    b = math.log(q) + broad if q > 0.0 else -np.inf
+    top = max(a, b)
+    return top + math.log(math.exp(a - top) + math.exp(b - top))
+
+
+@njit(cache=True)
+def star_loglike(s, full, d):
+    """ln L_s: the log-likelihood of star s's data."""
+    na = d.astro_first[s + 1] - d.astro_first[s]
+    nv = d.vel_first[s + 1] - d.vel_first[s]
+    mx = np.empty(na)
+    my = np.empty(na)
+    mv = np.empty(nv)
+    if not star_predict(s, full, d, mx, my, mv):
+        return -np.inf
+    total = 0.0
+    a0 = d.astro_first[s]
+    for k in range(na):
+        r = a0 + k
+        inst = d.ainst[r]
+        sx = _errors(inst, d.asx[r], full, d)
+        sy = _errors(inst, d.asy[r], full, d)
+        rho = d.arho[r]
+        zx = (d.ax[r] - mx[k]) / sx
+        zy = (d.ay[r] - my[k]) / sy
+        one_r2 = 1.0 - rho * rho
+        q_form = (zx * zx - 2.0 * rho * zx * zy + zy * zy) / one_r2
+        log_norm = _LOG_2PI + math.log(sx * sy) + 0.5 * math.log(one_r2)
+        total += _mixture(inst, q_form, log_norm, 2.0, full, d)
+    v0 = d.vel_first[s]
+    for k in range(nv):
+        r = v0 + k
+        inst = d.vinst[r]
+        sv = _errors(inst, d.vs[r], full, d)
+        z = (d.vv[r] - mv[k]) / sv
+        total += _mixture(inst, z * z, 0.5 * _LOG_2PI + math.log(sv), 1.0, full, d)
+    return total
+
+
+@njit(cache=True)
+def all_star_loglikes(full, d, out):
+    for s in range(out.size):
+        out[s] = star_loglike(s, full, d)
+
+
+@njit(cache=True)
+def star_residuals(s, full, d, out):
+    """Whitened residuals of star s (2 per astrometric epoch, 1 per velocity)
+    with the current error model, outlier mixture ignored: their sum of
+    squares is the chi^2 of the star."""
+    na = d.astro_first[s + 1] - d.astro_first[s]
+    nv = d.vel_first[s + 1] - d.vel_first[s]
+    mx = np.empty(na)
+    my = np.empty(na)
+    mv = np.empty(nv)
+    if not star_predict(s, full, d, mx, my, mv):
+        out[:] = 1e6          # no bound orbit: a large, finite misfit for least squares
+        return
+    a0 = d.astro_first[s]
+    for k in range(na):
+        r = a0 + k
+        inst = d.ainst[r]
+        zx = (d.ax[r] - mx[k]) / _errors(inst, d.asx[r], full, d)
+        zy = (d.ay[r] - my[k]) / _errors(inst, d.asy[r], full, d)
+        rho = d.arho[r]
+        out[2 * k] = zx
+        out[2 * k + 1] = (zy - rho * zx) / math.sqrt(1.0 - rho * rho)
+    v0 = d.vel_first[s]
+    for k in range(nv):
+        r = v0 + k
+        out[2 * na + k] = (d.vv[r] - mv[k]) / _errors(d.vinst[r], d.vs[r], full, d)
+
+
+# ---------------------------------------------------------------- Python face
+
+def build_data(campaign, layout):
+    """DataArrays for a campaign under a layout."""
+    inst_names = list(campaign.instruments)
+    inst_of = {name: k for k, name in enumerate(inst_names)}
+    star_of = {name: k for k, name in enumerate(campaign.stars)}
+    ast, vel = campaign.astrometry, campaign.velocities
+    a_star = np.array([star_of[s] for s in ast.star], dtype=np.int64)
+    v_star = np.array([star_of[s] for s in vel.star], dtype=np.int64)
+    if np.any(np.diff(a_star) < 0) or np.any(np.diff(v_star) < 0):
+        raise ValueError("data rows must be sorted by star in campaign order")
+    n_star = len(campaign.stars)
+    astro_first = np.searchsorted(a_star, np.arange(n_star + 1)).astype(np.int64)
+    vel_first = np.searchsorted(v_star, np.arange(n_star + 1)).astype(np.int64)
+    obs_t, need_v, obs_first = [], [], [0]
+    for s in range(n_star):
+        ta = ast.epoch_yr[astro_first[s]:astro_first[s + 1]]
+        tv = vel.epoch_yr[vel_first[s]:vel_first[s + 1]]
+        obs_t += [ta, tv]
+        need_v += [np.zeros(ta.size, bool), np.ones(tv.size, bool)]
+        obs_first.append(obs_first[-1] + ta.size + tv.size)
+
+    def index_of(suffix):
+        out = np.full(len(inst_names), -1, dtype=np.int64)
+        for k, name in enumerate(inst_names):
+            key = f"{name}.{suffix}"
+            if key in layout.names:
+                out[k] = layout.index(key)
+        return out
+
+    jitter = np.maximum(index_of("jitter_mas"), index_of("jitter_km_s"))
+    return DataArrays(
+        dynamics=KIND_BY_NAME[campaign.dynamics], t_ref=float(campaign.reference_epoch_yr),
+        star_offset=np.array([layout.star_offset(s) for s in range(n_star)], dtype=np.int64),
+        obs_first=np.array(obs_first, dtype=np.int64), astro_first=astro_first,
+        vel_first=vel_first, obs_t=np.concatenate(obs_t) if obs_t else np.empty(0),
+        obs_need_v=np.concatenate(need_v) if need_v else np.empty(0, bool),
+        ax=np.asarray(ast.x_mas, float), ay=np.asarray(ast.y_mas, float),
+        asx=np.asarray(ast.x_err_mas, float), asy=np.asarray(ast.y_err_mas, float),
+        arho=np.asarray(ast.rho, float),
+        ainst=np.array([inst_of[i] for i in ast.instrument], dtype=np.int64),
+        vv=np.asarray(vel.v_km_s, float), vs=np.asarray(vel.v_err_km_s, float),
+        vinst=np.array([inst_of[i] for i in vel.instrument], dtype=np.int64),
+        inst_offx=index_of("offset_x_mas"), inst_offy=index_of("offset_y_mas"),
+        inst_zp=index_of("zero_point_km_s"), inst_scale=index_of("error_scale"),
+        inst_jitter=jitter, inst_outlier=index_of("outlier_fraction"),
+        inst_width=np.array([campaign.instruments[n].outlier_width for n in inst_names]))
+
+
+class JointModel:
+    """The joint model of one variant: layout, data and the compiled likelihood."""
+
+    def __init__(self, campaign, variant_name):
+        self.campaign = campaign
+        self.layout = build_layout(campaign, variant_name)
+        self.data = build_data(campaign, self.layout)
+        self.n_star = len(campaign.stars)
+
+    def full(self, theta):
+        return self.layout.full_vector(np.asarray(theta, dtype=float))
+
+    def star_loglikes(self, theta):
+        out = np.empty(self.n_star)
+        all_star_loglikes(self.full(theta), self.data, out)
+        return out
+
+    def loglike(self, theta):
+        return float(self.star_loglikes(theta).sum())
+
+    def n_points(self, s):
+        """Number of data points (2 per astrometric epoch, 1 per velocity) of star s."""
+        d = self.data
+        return 2 * (d.astro_first[s + 1] - d.astro_first[s]) + (d.vel_first[s + 1] - d.vel_first[s])
+
+    def residuals(self, theta, s):
+        out = np.empty(self.n_points(s))
+        star_residuals(s, self.full(theta), self.data, out)
+        return out
+
+    def star_elements(self, theta, s):
+        """Physics element dict of star s (t_p from the phase and radial period)."""
+        full = self.full(theta)
+        orbit = np.empty(ORBIT_SIZE)
+        star_orbit(s, full, self.data, orbit)
+        o = self.layout.star_offset(s)
+        return {"period_yr": float(full[o]), "e": float(full[o + 1]),
+                "i_deg": float(np.degrees(np.arccos(np.clip(full[o + 2], -1, 1)))),
+                "Omega_deg": float(full[o + 3] % 360.0), "omega_deg": float(full[o + 4] % 360.0),
+                "t_p_yr": float(orbit[T_P])}
+
+    def predictions(self, theta, s):
+        """(x, y, v) model values at star s's rows."""
+        d = self.data
+        na = d.astro_first[s + 1] - d.astro_first[s]
+        nv = d.vel_first[s + 1] - d.vel_first[s]
+        out = np.empty(na), np.empty(na), np.empty(nv)
+        star_predict(s, self.full(theta), d, *out)
+        return out
+
+
+__all__ = ["DataArrays", "JointModel", "build_data", "star_loglike", "star_predict",
+           "star_residuals", "all_star_loglikes", "N_GLOBAL", "N_STAR"]
