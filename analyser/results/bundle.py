@@ -283,7 +283,9 @@ def variant_results(campaign, fit, out_dir):
                    "multimodal_stars": [campaign.stars[s] for s in pf.multimodal],
                    "modes_per_star": {campaign.stars[s]: len(m)
                                       for s, m in enumerate(pf.star_modes)}},
-        "best_sample": {"log_like": float(fit.log_like[best]),
+        "priors": {n: {"kind": p.kind, "a": p.a, "b": p.b, "period": p.period}
+                   for n, p in zip(lay.names, lay.priors)},
+        "best_sample": {"index": best, "log_like": float(fit.log_like[best]),
                         "log_posterior": float(fit.log_like[best] + fit.log_prior[best])},
         "globals": glob, "nuisances": nuis, "stars": stars, "derived": derived,
         "mirror_ambiguity": mirrors,
