@@ -87,6 +87,54 @@ def _tail_fraction(run, space):
     return float(np.sum(w[far]))
 
 
+PILOT_SHIFT_SIGMA = 3.0       # posterior centre this far from the prefit's mode: say so
+
+
+def _pilot_shift_note(prefit, moved, names):
+    """A note when the first pass found the posterior far from the prefit's
+    mode (in Laplace standard deviations): the Laplace picture is poor there."""
+    shift = np.abs(moved.centres - prefit.centres) / prefit.sigma
+    k = int(np.argmax(shift))
+    if shift[k] <= PILOT_SHIFT_SIGMA:
+        return []
+    return [f"the posterior's centre lies {shift[k]:.1f} Laplace sigma from the prefit's mode "
+            f"({names[k]}; {int(np.sum(shift > PILOT_SHIFT_SIGMA))} parameter(s) beyond "
+            f"{PILOT_SHIFT_SIGMA:g} sigma): the Gaussian approximation is poor there; the "
+            "sampler's proposal follows the first pass instead"]
+
+
+def run_warnings(run, prefit, log_like, imp):
+    """Plain-words warnings from the evidence cross-checks and the sampler's
+    health: disagreement with importance sampling or the Laplace estimate, a
+    best sample clearly short of the prefit's peak, posterior in the
+    proposal's far tails."""
+    res = run.results
+    log_z, log_z_err = float(res.logz[-1]), float(res.logzerr[-1])
+    out = []
+    combined = math.hypot(log_z_err, imp.log_z_err)
+    if imp.ess >= 50 and abs(log_z - imp.log_z) > max(3.0 * combined, 0.5):
+        out.append(f"ln Z {log_z:.2f} +- {log_z_err:.2f} disagrees with importance "
+                   f"sampling from the prefit ({imp.log_z:.2f} +- {imp.log_z_err:.2f}, "
+                   f"ESS {imp.ess:.0f})")
+    if abs(log_z - prefit.laplace_log_z) > LAPLACE_TOLERANCE:
+        out.append(f"ln Z {log_z:.2f} differs from the Laplace estimate "
+                   f"{prefit.laplace_log_z:.2f} by more than {LAPLACE_TOLERANCE:g} nats; "
+                   "expected only if the posterior is far from Gaussian")
+    # the best of n posterior draws in d dimensions is expected to lie about
+    # chi2_d(1/n)/2 below the peak; flag a clearly larger shortfall
+    shortfall = prefit.log_like - float(np.max(log_like))
+    expected = 0.5 * chi2.ppf(1.0 / max(len(log_like), 2), prefit.phi.size)
+    if shortfall > expected + SHORTFALL_TOLERANCE:
+        out.append(f"the best sampled ln L is {shortfall:.1f} below the prefit's mode "
+                   f"(about {expected:.1f} expected): the sampler may have missed the peak")
+    tails = _tail_fraction(run, run.space)
+    if tails > TAIL_FRACTION:
+        out.append(f"{100 * tails:.1f}% of the posterior lies in the far tails of the "
+                   "proposal prior; it may be too narrow (results stay exact, but sampling "
+                   "is inefficient and less reliable)")
+    return out
+
+
 def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size=None,
                 progress=True, engine=None, importance_draws=2000):
     settings = campaign.sampler
@@ -105,7 +153,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
         os.replace(tmp, prefit_file)
     prefit_seconds = time.time() - t0
     engine = engine or settings.engine
-    pilot_calls = 0
+    pilot_calls, pilot_notes = 0, []
     if engine == "blocked":
         # a quick first pass with few live points finds where the posterior
         # really is; its mean and covariance shape the final run's proposal
@@ -114,7 +162,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
                                  dlogz=PILOT_DLOGZ)
         pilot_file = work / "checkpoints" / f"{variant}.pilot.pkl"
         if resume and pilot_file.exists():
-            prefit, pilot_calls = pickle.loads(pilot_file.read_bytes())
+            prefit, pilot_calls, pilot_notes = pickle.loads(pilot_file.read_bytes())
             settings = replace(settings, proposal_widen=min(settings.proposal_widen,
                                                             CALIBRATED_WIDEN))
         else:
@@ -122,14 +170,16 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
                                 checkpoint=work / "checkpoints" / f"{variant}.pilot.dynesty",
                                 resume=resume, pool=pool, queue_size=queue_size, seed=seed + 7,
                                 progress=progress, engine=engine, label="pilot")
-            prefit = refit_from_posterior(prefit, pilot.space, pilot.results, model.layout)
+            moved = refit_from_posterior(prefit, pilot.space, pilot.results, model.layout)
+            pilot_notes = _pilot_shift_note(prefit, moved, model.layout.free_names)
+            prefit = moved
             # the final proposal now follows the posterior itself, so it needs
             # less margin than one built from the Laplace approximation
             settings = replace(settings, proposal_widen=min(settings.proposal_widen,
                                                             CALIBRATED_WIDEN))
             pilot_calls = pilot.likelihood_calls
             tmp = pilot_file.with_suffix(".tmp")
-            tmp.write_bytes(pickle.dumps((prefit, pilot_calls)))
+            tmp.write_bytes(pickle.dumps((prefit, pilot_calls, pilot_notes)))
             os.replace(tmp, pilot_file)
     # the final run; if its posterior sits in the proposal's far tails, the
     # proposal is rebuilt from that posterior and the run repeated (once)
@@ -153,30 +203,11 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
     imp = importance_evidence(model, prefit, n=importance_draws, seed=seed + 1)
     res = run.results
     log_z, log_z_err = float(res.logz[-1]), float(res.logzerr[-1])
-    warnings = list(prefit.warnings)
-    combined = math.hypot(log_z_err, imp.log_z_err)
-    if imp.ess >= 50 and abs(log_z - imp.log_z) > max(3.0 * combined, 0.5):
-        warnings.append(f"ln Z {log_z:.2f} +- {log_z_err:.2f} disagrees with importance "
-                        f"sampling from the prefit ({imp.log_z:.2f} +- {imp.log_z_err:.2f}, "
-                        f"ESS {imp.ess:.0f})")
-    if abs(log_z - prefit.laplace_log_z) > LAPLACE_TOLERANCE:
-        warnings.append(f"ln Z {log_z:.2f} differs from the Laplace estimate "
-                        f"{prefit.laplace_log_z:.2f} by more than {LAPLACE_TOLERANCE:g} nats; "
-                        "expected only if the posterior is far from Gaussian")
-    # the best of n posterior draws in d dimensions is expected to lie about
-    # chi2_d(1/n)/2 below the peak; flag a clearly larger shortfall
-    shortfall = prefit.log_like - float(np.max(log_like))
-    expected = 0.5 * chi2.ppf(1.0 / max(len(log_like), 2), prefit.phi.size)
-    if shortfall > expected + SHORTFALL_TOLERANCE:
-        warnings.append(f"the best sampled ln L is {shortfall:.1f} below the prefit's mode "
-                        f"(about {expected:.1f} expected): the sampler may have missed the peak")
+    tails = _tail_fraction(run, run.space)
+    warnings = list(prefit.warnings) + pilot_notes + run_warnings(run, prefit, log_like, imp)
     if retried:
         warnings.append("the first run's posterior lay in the proposal's far tails; the "
                         "proposal was rebuilt from it and the run repeated")
-    if tails > TAIL_FRACTION:
-        warnings.append(f"{100 * tails:.1f}% of the posterior lies in the far tails of the "
-                        "proposal prior; it may be too narrow (results stay exact, but "
-                        "sampling is inefficient and less reliable)")
     raw = {k: np.asarray(getattr(res, k)) for k in
            ("samples", "samples_u", "logwt", "logl", "logvol", "logz", "logzerr",
             "information", "ncall")}
