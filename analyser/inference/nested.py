@@ -167,7 +167,8 @@ def run_sampler(model: JointModel, prefit, settings, checkpoint=None, resume=Fal
                   checkpoint_every=settings.checkpoint_seconds, resume=resumed)
     if settings.max_calls:
         run_kw["maxcall"] = settings.max_calls
-    sampler.run_nested(**run_kw)
+    if not (resumed and sampler.added_live):      # a finished run has nothing to continue
+        sampler.run_nested(**run_kw)
     if printer:
         printer.close()
     res = sampler.results

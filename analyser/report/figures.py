@@ -312,9 +312,15 @@ def star_figure(bundle, star, out_dir):
         caption += (" Without velocities the orbit has the mirror ambiguity (Omega + 180 deg, "
                     "omega + 180 deg): the two modes trace the same sky track but predict "
                     "opposite line-of-sight velocities; draws are coloured by mode.")
+        delta = mirror_info.get("log_like_difference")
         if any(not m.get("parameters") for m in mirror_info["modes"]):
-            caption += (" One mode holds no samples; the dashed curve is the mirror image of "
-                        "the best sample, which fits the astrometry about equally well.")
+            caption += " One mode holds no samples; the dashed curve is the mirror image of the best sample"
+            if delta is not None and abs(delta) > 3.0:
+                caption += (f", whose best fit is worse by {abs(delta):.0f} in ln L: the "
+                            "light-travel time across the orbit, which changes sign with z, "
+                            "tells the two apart in these data.")
+            else:
+                caption += ", which fits the astrometry about as well."
     return Figure(f"star-{star}", star, caption, files)
 
 

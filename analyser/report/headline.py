@@ -99,12 +99,21 @@ def warnings(bundle):
         out += [(name, plain_words(w)) for w in v.get("warnings", [])]
         for star, info in v.get("mirror_ambiguity", {}).items():
             empty = [k + 1 for k, m in enumerate(info["modes"]) if not m.get("parameters")]
-            if empty:
+            delta = info.get("log_like_difference")
+            if empty and delta is not None and abs(delta) > 3.0:
+                out.append((name, f"{star} has no velocities, yet only one of its two mirror "
+                                  f"solutions is populated: the other fits worse by "
+                                  f"{abs(delta):.0f} in ln L at its best, because the "
+                                  "light-travel time across the orbit changes sign with the "
+                                  "star's depth. The choice rests on that small effect (and "
+                                  "on the modelled errors) alone."))
+            elif empty:
                 out.append((name, f"{star} has no velocities, so its orbit has two mirror "
                                   f"solutions, but the samples populate only one (mode "
-                                  f"{', '.join(map(str, empty))} is empty). The mode fractions "
-                                  "reflect the sampler, not the data; the star's Omega and "
-                                  "omega are known only up to 180 deg."))
+                                  f"{', '.join(map(str, empty))} is empty) although both fit "
+                                  "about equally well. The mode fractions reflect the "
+                                  "sampler, not the data; the star's Omega and omega are "
+                                  "known only up to 180 deg."))
         ev = v.get("evidence_checks", {})
         ess, draws = ev.get("importance_ess"), ev.get("importance_draws")
         if ess is not None and draws and ess < 50:

@@ -27,8 +27,9 @@ def prior_cell(p, scale=1.0):
         return Rich(NOT_RECORDED, NOT_RECORDED, NOT_RECORDED)
     if isinstance(p, str):
         return Rich(p, p, latex_escape(p))
-    kind, a = p["kind"], p["a"] / scale
-    b = p.get("b", float("nan")) / scale
+    kind = p["kind"]
+    # results.json stores an absent bound (NaN) as null
+    a, b = (float("nan") if p.get(k) is None else p[k] / scale for k in ("a", "b"))
     if kind == "fixed":
         return Rich(f"fixed at {a:g}", f"fixed at {_num(a)}", f"fixed at ${a:g}$")
     if kind == "gaussian":

@@ -207,7 +207,8 @@ def element_table(bundle):
         "osculating elements at the periapsis passage t_p (the last one before the reference "
         f"epoch {bundle.t_ref:.1f}), Keplerian period P and the periapsis-to-periapsis "
         "(radial) period P_r of the relativistic orbit. Stars without velocities are listed "
-        "per mirror mode (Omega+180 deg, omega+180 deg fit the astrometry equally well). "
+        "per mirror mode (Omega+180 deg, omega+180 deg give the same sky track up to the "
+        "light-travel time across the orbit). "
         "'covered' is the fraction of one radial period spanned by the data."), cols, rows)
 
 

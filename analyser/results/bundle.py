@@ -248,9 +248,14 @@ def variant_results(campaign, fit, out_dir):
                 summ = _summaries(sub, names, b)
                 modes.append({"fraction": float(sel.mean()),
                               "parameters": {k.split(".", 1)[1]: v for k, v in summ.items()}})
+            peaks = _mode_peaks(model, fit.prefit, s)
             mirrors[star] = {"note": "no velocities: the posterior has two mirror modes "
                                      "(Omega + 180 deg, omega + 180 deg); each is summarised "
-                                     "on its own", "modes": modes}
+                                     "on its own; the light-travel time across the orbit "
+                                     "(z changes sign) can favour one",
+                             "modes": modes, "mode_peak_log_like": peaks,
+                             "log_like_difference": (peaks[1] - peaks[0]) if len(peaks) > 1
+                             else None}
     theta_best = fit.theta[best]
     residual_stats, rows = _residuals(model, theta_best)
     from astropy.table import Table
@@ -294,6 +299,20 @@ def variant_results(campaign, fit, out_dir):
         "samples_file": f"samples/{fit.variant}.ecsv", "raw_file": f"raw/{fit.variant}.npz",
         "warnings": fit.warnings,
     }
+
+
+def _mode_peaks(model, prefit, s):
+    """The star's log-likelihood at the peak of each of its prefit modes, the
+    globals at the joint mode."""
+    from ..inference.likelihood import star_loglike
+    full = model.layout.full_vector(prefit.theta)
+    o = model.layout.star_offset(s)
+    out = []
+    for mode in prefit.star_modes[s]:
+        f = full.copy()
+        f[o:o + 6] = mode.values
+        out.append(float(star_loglike(s, f, model.data)))
+    return out
 
 
 def model_comparison(variants, reference):
