@@ -81,18 +81,6 @@ def transform(kind, a, b, lo, hi, u):
 
 
 @njit(cache=True)
-def inverse_transform(kind, a, b, lo, hi, x):
-    """Unit-cube coordinate of value x (inverse of `transform`)."""
-    if kind == UNIFORM:
-        return (x - a) / (b - a)
-    if kind == LOG_UNIFORM:
-        return math.log(x / a) / math.log(b / a)
-    c_lo = normal_cdf((lo - a) / b)
-    c_hi = normal_cdf((hi - a) / b)
-    return (normal_cdf((x - a) / b) - c_lo) / (c_hi - c_lo)
-
-
-@njit(cache=True)
 def log_density(kind, a, b, lo, hi, x):
     """ln prior density at x; -inf outside the support."""
     if kind == UNIFORM:
@@ -213,13 +201,6 @@ def student_quantile(dof, p):
             return new
         t = new
     return t
-
-
-@njit(cache=True)
-def student_cdf(dof, t):
-    if dof == 2:
-        return 0.5 + t / (2.0 * math.sqrt(2.0 + t * t))
-    return _t3_cdf(t)
 
 
 @njit(cache=True)

@@ -36,8 +36,8 @@ from typing import NamedTuple
 import numpy as np
 from numba import njit
 
-from .priors import (check_dof, from_fit, inverse_transform, log_prior_fit, student_cdf,
-                     student_log_density, student_quantile, to_fit, transform)
+from .priors import (check_dof, log_prior_fit, student_log_density, student_quantile, to_fit,
+                     transform)
 
 
 class Space(NamedTuple):
@@ -121,6 +121,25 @@ def block_theta(sp, b, u, theta):
 
 
 @njit(cache=True)
+def _whitened(sp, b, theta, m, z):
+    """z = L_b^{-1} (theta_b - mean of mode m - B_b (g - mu_g)): block b's
+    point in the proposal's standard coordinates."""
+    t0 = sp.theta_start[b]
+    n = sp.theta_start[b + 1] - t0
+    r = np.empty(n)
+    m0 = sp.mean_start[b] + m * n
+    ng = sp.theta_start[1]
+    s0 = sp.slope_start[b]
+    for i in range(n):
+        acc = theta[t0 + i] - sp.mean[m0 + i]
+        if b > 0:
+            for j in range(ng):
+                acc -= sp.slope[s0 + i * ng + j] * (theta[j] - sp.mean[j])
+        r[i] = acc
+    _chol_solve(sp, b, r, z)
+
+
+@njit(cache=True)
 def block_log_ratio(sp, b, theta):
     """ln pi_b - ln pi~_b (given g) of block b at fit coordinates theta: the
     repartitioning weight (zero for a block on its original prior; -inf
@@ -140,24 +159,10 @@ def block_log_ratio(sp, b, theta):
                                 sp.period[k], x)
     if log_pi == -np.inf:
         return -np.inf
-    # residual from the conditional centre, per mode
-    r = np.empty(n)
     z = np.empty(n)
-    shift = np.zeros(n)
-    if b > 0:
-        ng = sp.theta_start[1]
-        s0 = sp.slope_start[b]
-        for i in range(n):
-            acc = 0.0
-            for j in range(ng):
-                acc += sp.slope[s0 + i * ng + j] * (theta[j] - sp.mean[j])
-            shift[i] = acc
     log_q = -np.inf
     for m in range(modes):
-        m0 = sp.mean_start[b] + m * n
-        for i in range(n):
-            r[i] = theta[t0 + i] - sp.mean[m0 + i] - shift[i]
-        _chol_solve(sp, b, r, z)
+        _whitened(sp, b, theta, m, z)
         lq = -sp.log_det[b] - math.log(modes)
         for i in range(n):
             lq += student_log_density(sp.dof, z[i])
@@ -170,47 +175,6 @@ def block_log_ratio(sp, b, theta):
 def cube_to_theta(sp, u, theta):
     for b in range(sp.n_blocks):
         block_theta(sp, b, u, theta)
-
-
-@njit(cache=True)
-def theta_to_cube(sp, theta, mode_of_block, u):
-    """Cube point of fit coordinates theta, given the mode of every block
-    (the inverse of `cube_to_theta`, used to seed points)."""
-    for b in range(sp.n_blocks):
-        t0, t1 = sp.theta_start[b], sp.theta_start[b + 1]
-        n = t1 - t0
-        u0 = sp.u_start[b]
-        modes = sp.n_modes[b]
-        if modes == 0:
-            for i in range(n):
-                k = t0 + i
-                x = from_fit(sp.kind[k], sp.pa[k], sp.pb[k], sp.period[k], theta[k])
-                if sp.period[k] > 0:
-                    x = sp.pa[k] + (x - sp.pa[k]) % sp.period[k]
-                u[u0 + i] = inverse_transform(sp.kind[k], sp.pa[k], sp.pb[k], sp.plo[k],
-                                              sp.phi[k], x)
-            continue
-        m = mode_of_block[b]
-        if modes == 2:
-            u[u0] = 0.25 + 0.5 * m
-            u0 += 1
-        r = np.empty(n)
-        z = np.empty(n)
-        shift = np.zeros(n)
-        if b > 0:
-            ng = sp.theta_start[1]
-            s0 = sp.slope_start[b]
-            for i in range(n):
-                acc = 0.0
-                for j in range(ng):
-                    acc += sp.slope[s0 + i * ng + j] * (theta[j] - sp.mean[j])
-                shift[i] = acc
-        m0 = sp.mean_start[b] + m * n
-        for i in range(n):
-            r[i] = theta[t0 + i] - sp.mean[m0 + i] - shift[i]
-        _chol_solve(sp, b, r, z)
-        for i in range(n):
-            u[u0 + i] = student_cdf(sp.dof, z[i])
 
 
 # ---------------------------------------------------------------- construction

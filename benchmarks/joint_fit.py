@@ -1,0 +1,152 @@
+"""The joint fit's speed and exactness, side by side in one run.
+
+On one simulated campaign and the same compiled likelihood:
+  * stock dynesty: its rslice sampler on the original prior, default bound;
+  * the package's engine: the full fit of a variant (prefit, first pass,
+    repartitioned block-slice run);
+against two references: importance sampling from the prefit's Laplace
+approximation (heavy-tailed; ESS and bootstrap error printed) and the
+Laplace value itself.  Printed: wall seconds, likelihood-equivalent
+evaluations, ln Z +- err, each run's offset from the importance-sampling
+reference, and per global parameter the two-sample KS p-value of each run's
+marginal against the reference's.
+
+    python benchmarks/joint_fit.py --stars 4            # the 4-star comparison
+    python benchmarks/joint_fit.py --stars 30 --no-stock  # the 30-star engine run
+"""
+
+import argparse
+import math
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+from scipy import stats
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from analyser.campaign import load_campaign, SamplerSettings          # noqa: E402
+from analyser.inference.evidence import importance_evidence           # noqa: E402
+from analyser.inference.likelihood import JointModel                  # noqa: E402
+from analyser.inference.nested import posterior_samples, run_sampler  # noqa: E402
+from analyser.inference.prefit import run_prefit                      # noqa: E402
+from analyser.inference.run import fit_variant, variant_seed          # noqa: E402
+from analyser.simulate import simulate, write_campaign                # noqa: E402
+
+
+def scenario(n_stars, seed):
+    """An invented cluster of n stars, periods 6-200 yr, 25 years of data."""
+    rng = np.random.default_rng(seed)
+    stars = {}
+    for k in range(n_stars):
+        period = float(np.exp(rng.uniform(np.log(6.0), np.log(200.0))))
+        stars[f"BM-{k + 1:02d}"] = {
+            "period_yr": period, "e": float(rng.uniform(0.2, 0.9)),
+            "i_deg": float(np.degrees(np.arccos(rng.uniform(-0.95, 0.95)))),
+            "Omega_deg": float(rng.uniform(0, 360)), "omega_deg": float(rng.uniform(0, 360)),
+            "t_p_yr": float(2012.0 + rng.uniform(-0.5, 0.5) * period)}
+    return {
+        "scenario": {"name": f"benchmark cluster, {n_stars} stars", "seed": seed,
+                     "reference_epoch": 2012.0, "dynamics": "analytic-1pn"},
+        "truth": {"mass_msun": 3.8e6, "distance_pc": 7600.0, "x0_mas": 0.1, "y0_mas": -0.2,
+                  "vx0_mas_yr": 0.02, "vy0_mas_yr": 0.01, "vz0_km_s": 3.0, "f_sp": 1.0,
+                  "f_z": 1.0},
+        "stars": stars,
+        "observing": {
+            "OSPREY": {"kind": "astrometry", "first_year": 2000, "last_year": 2025,
+                       "nights_per_season": 3, "error_mas": 0.4},
+            "GANNET": {"kind": "velocity", "first_year": 2003, "last_year": 2025,
+                       "nights_per_season": 2, "error_km_s": 15.0,
+                       "stars_per_night": min(n_stars, 6)}},
+        "campaign": {
+            "instruments": {"OSPREY": {"kind": "astrometry", "reference": True},
+                            "GANNET": {"kind": "velocity", "reference": True}},
+            "priors": {"mass_msun": {"log-uniform": [1e6, 1e7]},
+                       "distance_pc": {"uniform": [4000, 12000]},
+                       "x0_mas": {"gaussian": [0, 1]}, "y0_mas": {"gaussian": [0, 1]},
+                       "vx0_mas_yr": {"gaussian": [0, 0.1]},
+                       "vy0_mas_yr": {"gaussian": [0, 0.1]}, "vz0_km_s": {"gaussian": [0, 20]}},
+            "star_priors": {"default": {"period_yr": {"log-uniform": [2, 2000]}}},
+            "variants": {"reference": "gr", "gr": {"f_sp": {"fixed": 1}, "f_z": {"fixed": 1}}},
+            "sampler": {"live_points": 300, "dlogz": 0.1}},
+    }
+
+
+def resample(phi, log_w, n, seed):
+    w = np.exp(log_w - np.max(log_w))
+    w /= w.sum()
+    idx = np.random.default_rng(seed).choice(len(w), size=n, p=w)
+    return phi[idx]
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--stars", type=int, default=4)
+    ap.add_argument("--seed", type=int, default=5)
+    ap.add_argument("--no-stock", action="store_true", help="skip stock dynesty")
+    ap.add_argument("--stock-max-calls", type=int, default=5_000_000,
+                    help="stop stock dynesty after this many calls (then reported as such)")
+    ap.add_argument("--importance-draws", type=int, default=20000)
+    ap.add_argument("--work", default="runs/benchmark")
+    args = ap.parse_args()
+
+    work = Path(args.work) / f"{args.stars}-stars"
+    doc, astro, vel, truth = simulate(scenario(args.stars, args.seed))
+    write_campaign(work / "campaign", doc, astro, vel, truth)
+    campaign = load_campaign(work / "campaign" / "campaign.toml")
+    model = JointModel(campaign, "gr")
+    fp = model.layout.free_prior_arrays()
+    print(f"campaign: {args.stars} stars, {len(campaign.astrometry)} astrometric and "
+          f"{len(campaign.velocities)} velocity epochs, {model.layout.n_free} free parameters")
+
+    t0 = time.time()
+    prefit = run_prefit(model, seed=variant_seed(campaign.seed, "gr"))
+    prefit_s = time.time() - t0
+    imp = importance_evidence(model, prefit, n=args.importance_draws, seed=1)
+    ref_phi = resample(imp.phi, imp.log_weight, 4000, 2)
+    print(f"prefit {prefit_s:.1f} s; Laplace ln Z {prefit.laplace_log_z:.3f}; importance "
+          f"sampling ln Z {imp.log_z:.3f} +- {imp.log_z_err:.3f} (ESS {imp.ess:.0f} of {imp.n})")
+
+    rows = []
+    t0 = time.time()
+    fit = fit_variant(campaign, "gr", work / "engine", progress=False)
+    engine_s = time.time() - t0
+    rows.append(("engine", engine_s, fit.likelihood_calls, fit.log_z, fit.log_z_err,
+                 np.array([fp.to_fit(t) for t in fit.theta])))
+    if not args.no_stock:
+        settings = SamplerSettings(live_points=campaign.sampler.live_points,
+                                   dlogz=campaign.sampler.dlogz, max_calls=args.stock_max_calls)
+        t0 = time.time()
+        stock = run_sampler(model, prefit, settings, seed=3, progress=False, engine="stock")
+        stock_s = time.time() - t0
+        phi, _, _ = posterior_samples(stock, fp)
+        rows.append(("stock", stock_s, stock.likelihood_calls, float(stock.results.logz[-1]),
+                     float(stock.results.logzerr[-1]), np.array([fp.to_fit(t) for t in phi])))
+        if stock.likelihood_calls >= args.stock_max_calls:
+            print(f"note: stock dynesty stopped at the cap of {args.stock_max_calls} calls "
+                  "before its stopping criterion")
+
+    names = model.layout.free_names[:int(model.layout.block_start[1])]
+    print()
+    print(f"{'run':8s} {'wall s':>9s} {'calls':>11s} {'ln Z':>11s} {'+-':>6s} "
+          f"{'- IS ref':>9s} {'(sigma)':>8s}  min KS p over globals")
+    for name, wall, calls, log_z, err, phi in rows:
+        diff = log_z - imp.log_z
+        sig = diff / math.hypot(err, imp.log_z_err)
+        pvals = [stats.ks_2samp(phi[:, k], ref_phi[:, k]).pvalue for k in range(len(names))]
+        print(f"{name:8s} {wall:9.1f} {calls:11d} {log_z:11.3f} {err:6.3f} {diff:+9.3f} "
+              f"{sig:+8.2f}  {min(pvals):.3g}")
+    print()
+    print("KS p-values per global parameter against the importance-sampling posterior:")
+    for k, n in enumerate(names):
+        print(f"  {n:24s} " + "  ".join(
+            f"{name} {stats.ks_2samp(phi[:, k], ref_phi[:, k]).pvalue:7.3f}"
+            for name, *_, phi in rows))
+    if len(rows) == 2:
+        print(f"\nwall-time ratio stock / engine: {rows[1][1] / rows[0][1]:.1f}; "
+              f"call ratio: {rows[1][2] / rows[0][2]:.1f}")
+
+
+if __name__ == "__main__":
+    main()
