@@ -252,3 +252,11 @@ def test_resume_after_a_kill_gives_the_same_posterior(tmp_path):
     assert abs(resumed.log_z - straight.log_z) < 3.0 * math.hypot(resumed.log_z_err,
                                                                  straight.log_z_err)
     assert stats.ks_2samp(resumed.theta[:, 0], straight.theta[:, 0]).pvalue > 0.001
+
+
+def test_a_fit_is_deterministic_for_its_seed(tmp_path):
+    campaign, _ = make_campaign(tmp_path, scenario(stars=("TC-1",)))
+    a = fit_campaign(campaign, tmp_path / "a", variants=["gr"])["gr"]
+    b = fit_campaign(campaign, tmp_path / "b", variants=["gr"])["gr"]
+    assert a.log_z == b.log_z
+    assert np.array_equal(a.theta, b.theta)
