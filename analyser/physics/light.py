@@ -23,11 +23,13 @@ from numba import njit
 
 from .dynamics import advance_phase, phase_to_state, start_phase
 
-# The iteration stops once Newton's next step is below this and takes that
-# step to first order (position + v dt, velocity + a dt): what is left is
-# O(dt^2) ~ 1e-10 AU in position and 1e-5 km/s in velocity even at a periapsis
-# like that of the fastest known stars, far below any measurement.
-ROEMER_TOL_YR = 1e-7
+# The iteration stops once Newton's next step is below this (about half a
+# minute) and takes that step to first order (position + v dt, velocity
+# + a dt).  What is left is half the acceleration (jerk) times dt^2: at the
+# periapsis of an e = 0.93, P = 11 yr orbit around 4.3e6 M_sun (r_p = 56 AU)
+# that is below 1e-9 mas and 1e-5 km/s, far below any measurement.  From the
+# previous epoch's delay most epochs then need two state evaluations.
+ROEMER_TOL_YR = 1e-6
 _MAX_ITER = 12
 
 
