@@ -546,16 +546,24 @@ def _conditional_scale(hess, fallback):
     return np.where(diag > 0, 1.0 / np.sqrt(np.maximum(diag, 1e-300)), fallback)
 
 
+# Newton stops once a step gains less than this (nats): the mode then sits
+# well inside the sampler's own ln Z error.
+NEWTON_GAIN_NATS = 0.02
+
+
 def _newton(post, phi, steps, iterations=15):
     """Newton's method on -ln posterior with a backtracking line search, in
     coordinates scaled by the conditional widths; the finite-difference steps
-    follow those widths (a fifth of each).  Returns (mode, Hessian, warnings)."""
+    follow those widths (a fifth of each).  Returns (mode, Hessian)."""
     value = post(phi)
     grad, hess = block_hessian(post, phi, steps)
     for _ in range(iterations):
         scale = _conditional_scale(hess, 5.0 * steps)
         w, v = np.linalg.eigh(hess * np.outer(scale, scale))
-        w = np.maximum(w, 1e-3)           # keep every direction downhill
+        # |w| keeps every direction downhill (saddle-free Newton); the floor
+        # is tiny so that strongly correlated pairs (mass and distance) still
+        # get their full step along the degenerate direction
+        w = np.maximum(np.abs(w), 1e-10 * np.max(np.abs(w)))
         step = -scale * (v @ ((v.T @ (grad * scale)) / w))
         predicted = -0.5 * float(grad @ step)
         t = 1.0
@@ -570,11 +578,37 @@ def _newton(post, phi, steps, iterations=15):
         phi, improvement, value = trial, value - new, new
         steps = 0.2 * scale
         grad, hess = block_hessian(post, phi, steps)
-        if improvement < 1e-4 and predicted < 1e-3:
+        if improvement < NEWTON_GAIN_NATS or (improvement < 1e-4 and predicted < 1e-3):
             break
     steps = 0.2 * _conditional_scale(hess, steps / 0.2)
     grad, hess = block_hessian(post, phi, steps)
     return phi, hess
+
+
+def laplace_at_mode(post, phi, steps):
+    """Newton from phi to the nearby mode of the posterior in fit coordinates;
+    returns (mode, Hessian, covariance, Laplace ln Z, warnings).  The Laplace
+    estimate is ln L + ln prior + d/2 ln 2 pi - 1/2 ln det H at the mode."""
+    warnings = []
+    phi, hess = _newton(post, phi, steps)
+    try:
+        cov = np.linalg.inv(hess)
+        sign, logdet = np.linalg.slogdet(hess)
+        if sign <= 0 or np.any(np.diag(cov) <= 0):
+            raise np.linalg.LinAlgError
+    except np.linalg.LinAlgError:
+        # regularise in correlation form: raw eigenvalues span many decades
+        sc = _conditional_scale(hess, np.ones(phi.size))
+        w, v = np.linalg.eigh(hess * np.outer(sc, sc))
+        warnings.append("the Hessian at the mode is not positive definite "
+                        f"(smallest scaled eigenvalue {w.min():.3g}); the Laplace "
+                        "covariance was regularised")
+        w = np.maximum(w, 1e-6)
+        hess = (v * w) @ v.T / np.outer(sc, sc)
+        cov = ((v / w) @ v.T) * np.outer(sc, sc)
+        logdet = float(np.sum(np.log(w)) - 2.0 * np.sum(np.log(sc)))
+    log_z = -post(phi) + 0.5 * phi.size * math.log(2.0 * math.pi) - 0.5 * logdet
+    return phi, hess, cov, log_z, warnings
 
 
 def refine_star(post, phi, s, starts, scale):
@@ -687,6 +721,22 @@ def _initial_steps(fp, phi):
     return steps
 
 
+def mode_evidences(model, prefit, s):
+    """Laplace ln Z of each of star s's prefit modes, every parameter free:
+    Newton from the joint mode with the star's block set to that mode.
+    Their differences predict the posterior mass in each mode (the check
+    of the sampler's split between the mirror modes)."""
+    post = FitPosterior(model)
+    steps = 0.2 * prefit.sigma
+    blk = model.layout.block_of_star(s)
+    out = []
+    for mode in prefit.star_modes[s]:
+        phi = prefit.phi.copy()
+        phi[blk] = _mode_in_fit(post, s, mode.values)
+        out.append(float(laplace_at_mode(post, phi, steps)[3]))
+    return out
+
+
 def chi2_by_instrument(model, theta):
     """chi^2, number of points and reduced chi^2 per instrument at theta."""
     d = model.data
@@ -747,29 +797,13 @@ def run_prefit(model: JointModel, seed=0, n_starts=12):
         if blk.stop > blk.start:
             starts = [phi[blk]] + [_mode_in_fit(post, s, x.values) for x in m[1:]]
             phi[blk], _ = refine_star(post, phi, s, starts, scale)
-    phi, hess = _newton(post, phi, 0.2 * scale)
-    try:
-        cov = np.linalg.inv(hess)
-        sign, logdet = np.linalg.slogdet(hess)
-        if sign <= 0 or np.any(np.diag(cov) <= 0):
-            raise np.linalg.LinAlgError
-    except np.linalg.LinAlgError:
-        # regularise in correlation form: raw eigenvalues span many decades
-        sc = _conditional_scale(hess, np.ones(phi.size))
-        w, v = np.linalg.eigh(hess * np.outer(sc, sc))
-        warnings.append("the Hessian at the mode is not positive definite "
-                        f"(smallest scaled eigenvalue {w.min():.3g}); the Laplace "
-                        "covariance was regularised")
-        w = np.maximum(w, 1e-6)
-        hess = (v * w) @ v.T / np.outer(sc, sc)
-        cov = ((v / w) @ v.T) * np.outer(sc, sc)
-        logdet = float(np.sum(np.log(w)) - 2.0 * np.sum(np.log(sc)))
+    phi, hess, cov, laplace, notes = laplace_at_mode(post, phi, 0.2 * scale)
+    warnings += notes
     blocks, widened = proposal_blocks(post, phi, cov)
     centres = phi.copy()
     theta = fp.from_fit(phi)
     ll = model.loglike(theta)
     lp = fp.log_prior_fit(phi)
-    laplace = ll + lp + 0.5 * phi.size * math.log(2.0 * math.pi) - 0.5 * logdet
     full = lay.full_vector(theta)
     for s, m in enumerate(modes):
         if not m:
