@@ -114,6 +114,14 @@ def warnings(bundle):
                                   "about equally well. The mode fractions reflect the "
                                   "sampler, not the data; the star's Omega and omega are "
                                   "known only up to 180 deg."))
+            expected = info.get("laplace_fractions") or []
+            sampled = [m["fraction"] for m in info["modes"]]
+            if len(expected) == len(sampled) == 2 and abs(expected[1] - sampled[1]) > 0.2:
+                out.append((name, f"{star}: the samples put {100 * sampled[1]:.0f}% of the "
+                                  f"posterior in the second mirror mode, the Laplace evidences "
+                                  f"of the two modes {100 * expected[1]:.0f}%. Where they "
+                                  "disagree this much, the split between the modes is "
+                                  "uncertain; more live points would settle it."))
         ev = v.get("evidence_checks", {})
         ess, draws = ev.get("importance_ess"), ev.get("importance_draws")
         if ess is not None and draws and ess < 50:

@@ -26,6 +26,7 @@ import numpy as np
 from .. import __version__
 from ..campaign import GLOBAL_PARAMETERS
 from ..data.summary import campaign_summary
+from ..inference.prefit import mode_evidences
 from .derived import ELEMENT_COLUMNS, posterior_table, DERIVED_UNITS
 from .summaries import PERIODS, kass_raftery, mirror_modes, summarise
 
@@ -249,13 +250,18 @@ def variant_results(campaign, fit, out_dir):
                 modes.append({"fraction": float(sel.mean()),
                               "parameters": {k.split(".", 1)[1]: v for k, v in summ.items()}})
             peaks = _mode_peaks(model, fit.prefit, s)
+            laplace = mode_evidences(model, fit.prefit, s) if len(peaks) > 1 else []
+            top = max(laplace, default=0.0)
+            weights = [math.exp(z - top) for z in laplace]
             mirrors[star] = {"note": "no velocities: the posterior has two mirror modes "
                                      "(Omega + 180 deg, omega + 180 deg); each is summarised "
                                      "on its own; the light-travel time across the orbit "
                                      "(z changes sign) can favour one",
                              "modes": modes, "mode_peak_log_like": peaks,
                              "log_like_difference": (peaks[1] - peaks[0]) if len(peaks) > 1
-                             else None}
+                             else None,
+                             "mode_laplace_log_z": laplace,
+                             "laplace_fractions": [w / sum(weights) for w in weights]}
     theta_best = fit.theta[best]
     residual_stats, rows = _residuals(model, theta_best)
     from astropy.table import Table
