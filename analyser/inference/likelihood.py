@@ -154,14 +154,22 @@ def _mixture(inst, q_form, log_norm, ndim, full, d):
 
 
 @njit(cache=True)
-def star_loglike(s, full, d):
-    """ln L_s: the log-likelihood of star s's data."""
+def _star_model(s, full, d):
+    """(bound, n astrometric rows, n velocity rows, model x, y, v) of star s."""
     na = d.astro_first[s + 1] - d.astro_first[s]
     nv = d.vel_first[s + 1] - d.vel_first[s]
     mx = np.empty(na)
     my = np.empty(na)
     mv = np.empty(nv)
-    if not star_predict(s, full, d, mx, my, mv):
+    bound = star_predict(s, full, d, mx, my, mv)
+    return bound, na, nv, mx, my, mv
+
+
+@njit(cache=True)
+def star_loglike(s, full, d):
+    """ln L_s: the log-likelihood of star s's data."""
+    bound, na, nv, mx, my, mv = _star_model(s, full, d)
+    if not bound:
         return -np.inf
     total = 0.0
     a0 = d.astro_first[s]
@@ -198,12 +206,8 @@ def star_residuals(s, full, d, out):
     """Whitened residuals of star s (2 per astrometric epoch, 1 per velocity)
     with the current error model, outlier mixture ignored: their sum of
     squares is the chi^2 of the star."""
-    na = d.astro_first[s + 1] - d.astro_first[s]
-    nv = d.vel_first[s + 1] - d.vel_first[s]
-    mx = np.empty(na)
-    my = np.empty(na)
-    mv = np.empty(nv)
-    if not star_predict(s, full, d, mx, my, mv):
+    bound, na, nv, mx, my, mv = _star_model(s, full, d)
+    if not bound:
         out[:] = 1e6          # no bound orbit: a large, finite misfit for least squares
         return
     a0 = d.astro_first[s]
