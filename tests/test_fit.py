@@ -156,25 +156,27 @@ def test_mirror_modes_are_kept_and_weighed(tmp_path):
     """A star without velocities has two mirror modes; the light-travel time
     breaks their symmetry (z changes sign), weakly at milliarcsecond errors
     (at the 0.05 mas of interferometry it often decides).  Each mode's
-    posterior mass must match its weight from the
-    prefit (Laplace: the peak likelihoods, the curvatures being mirror images)."""
+    posterior mass must match its weight from the Laplace evidence of that
+    mode with every parameter free (an independent estimate: Newton's method
+    and a Hessian, no sampling).  The peak likelihoods at the first mode's
+    globals are no such check: the globals shift with the mode, and here the
+    mode with the lower peak at fixed globals carries ~63% of the mass."""
     sc = scenario(stars=("TC-1", "TC-2"), **{"observing.KITE.error_mas": 1.0,
                                             "campaign.sampler.live_points": 250})
     sc["stars"]["TC-2"].update(velocities=False, i_deg=60.0)
     campaign, _ = make_campaign(tmp_path, sc)
     fits = fit_campaign(campaign, tmp_path / "out", variants=["gr"])
     doc = write_bundle(tmp_path / "out", campaign, fits, "test", time.time())
-    modes = doc["variants"]["gr"]["mirror_ambiguity"]["TC-2"]["modes"]
-    fractions = [m["fraction"] for m in modes]
+    mirror = doc["variants"]["gr"]["mirror_ambiguity"]["TC-2"]
+    fractions = [m["fraction"] for m in mirror["modes"]]
     assert sum(fractions) == pytest.approx(1.0)
-    # peak log-likelihoods of the two modes at the joint globals
-    peaks = doc["variants"]["gr"]["mirror_ambiguity"]["TC-2"]["mode_peak_log_like"]
-    expected_second = 1.0 / (1.0 + math.exp(peaks[0] - peaks[1]))
-    assert 0.1 < expected_second < 0.9           # the set-up keeps both modes in play
-    # nested sampling splits its live points between the modes with a
-    # binomial-like scatter, ~0.1 at 250 live points
-    assert fractions[1] == pytest.approx(expected_second, abs=0.2)
-    big = [m["parameters"]["Omega_deg"]["median"] for m in modes]
+    expected = mirror["laplace_fractions"]
+    assert sum(expected) == pytest.approx(1.0)
+    assert 0.1 < expected[1] < 0.9               # the set-up keeps both modes in play
+    # measured over four seeds: 0.62-0.69 against a Laplace 0.63; nested
+    # sampling's split between modes scatters by ~0.1 at 250 live points
+    assert fractions[1] == pytest.approx(expected[1], abs=0.15)
+    big = [m["parameters"]["Omega_deg"]["median"] for m in mirror["modes"]]
     assert abs((big[0] - big[1]) % 360.0 - 180.0) < 10.0
 
 
@@ -204,22 +206,47 @@ def test_offset_proposal_is_detected_and_the_fit_recovers(tmp_path, monkeypatch)
     assert any("Laplace sigma from the prefit's mode" in w for w in fit.warnings)
 
 
+def _weighted_moments(x, w=None):
+    w = np.full(x.shape[0], 1.0 / x.shape[0]) if w is None else w / np.sum(w)
+    mean = w @ x
+    return mean, np.sqrt(w @ (x - mean) ** 2)
+
+
 def test_block_engine_agrees_with_stock_dynesty(tmp_path):
-    """Same posterior (two-sample KS on the globals) and evidence, the stock
-    run on the original prior with dynesty's own rslice sampler."""
+    """Same posterior and evidence as the stock run on the original prior
+    with dynesty's own rslice sampler, and as importance sampling from the
+    Laplace approximation (ESS ~8600 here, the sharpest reference).
+
+    Posteriors are compared by each global's mean (within 0.3 posterior
+    sigma) and width (within 20%).  A two-sample KS test is no fair judge of
+    resampled nested-sampling output: its draws repeat and their live-point
+    ancestries are correlated, so two runs of the same engine that differ by
+    0.1 sigma in a mean already give KS p ~ 1e-5 (measured)."""
     campaign, _ = make_campaign(tmp_path, scenario(stars=("TC-1",)))
     model = JointModel(campaign, "gr")
     prefit = run_prefit(model, seed=3)
     settings = SamplerSettings(live_points=150, dlogz=0.1)
     fast = run_sampler(model, prefit, settings, seed=7, progress=False, engine="blocked")
     stock = run_sampler(model, prefit, settings, seed=8, progress=False, engine="stock")
+    imp = importance_evidence(model, prefit, n=20000, seed=4)
+    assert imp.ess > 1000
     fp = model.layout.free_prior_arrays()
+    n_glob = int(model.layout.block_start[1])
     a, _, _ = posterior_samples(fast, fp)
     b, _, _ = posterior_samples(stock, fp)
-    for k in range(int(model.layout.block_start[1])):
-        assert stats.ks_2samp(a[:, k], b[:, k]).pvalue > 0.001, model.layout.free_names[k]
+    ref = np.array([fp.from_fit(p) for p in imp.phi])
+    m_ref, s_ref = _weighted_moments(ref[:, :n_glob], imp.weights())
+    for other in (b, ref):
+        m_a, s_a = _weighted_moments(a[:, :n_glob])
+        m_o, s_o = (m_ref, s_ref) if other is ref else _weighted_moments(other[:, :n_glob])
+        for k in range(n_glob):
+            name = model.layout.free_names[k]
+            assert abs(m_a[k] - m_o[k]) < 0.3 * s_ref[k], name
+            assert 0.8 < s_a[k] / s_o[k] < 1.25, name
     err = math.hypot(fast.results.logzerr[-1], stock.results.logzerr[-1])
     assert abs(fast.results.logz[-1] - stock.results.logz[-1]) < 3.0 * err + 0.1
+    assert abs(fast.results.logz[-1] - imp.log_z) < 3.0 * math.hypot(
+        fast.results.logzerr[-1], imp.log_z_err) + 0.1
 
 
 RESUME_SCRIPT = """
@@ -251,7 +278,12 @@ def test_resume_after_a_kill_gives_the_same_posterior(tmp_path):
     straight = fit_campaign(campaign, tmp_path / "straight", variants=["gr"])["gr"]
     assert abs(resumed.log_z - straight.log_z) < 3.0 * math.hypot(resumed.log_z_err,
                                                                  straight.log_z_err)
-    assert stats.ks_2samp(resumed.theta[:, 0], straight.theta[:, 0]).pvalue > 0.001
+    # same posterior within sampling noise (see the stock comparison for why
+    # moments rather than a KS test)
+    m_r, s_r = _weighted_moments(resumed.theta)
+    m_s, s_s = _weighted_moments(straight.theta)
+    assert np.all(np.abs(m_r - m_s) < 0.3 * s_s)
+    assert np.all((0.8 < s_r / s_s) & (s_r / s_s < 1.25))
 
 
 def test_a_fit_is_deterministic_for_its_seed(tmp_path):
