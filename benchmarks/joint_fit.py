@@ -14,10 +14,12 @@ ratio of widths against the reference and a weighted two-sample KS p-value
 
     python benchmarks/joint_fit.py --stars 4            # the 4-star comparison
     python benchmarks/joint_fit.py --stars 30 --no-stock  # the 30-star engine run
+    python benchmarks/joint_fit.py --stars 30 --no-stock --workers 2   # ... on two cores
 """
 
 import argparse
 import math
+import multiprocessing
 import sys
 import time
 from pathlib import Path
@@ -108,6 +110,8 @@ def main():
     ap.add_argument("--stock-max-calls", type=int, default=5_000_000,
                     help="stop stock dynesty after this many calls (then reported as such)")
     ap.add_argument("--importance-draws", type=int, default=20000)
+    ap.add_argument("--workers", type=int, default=1,
+                    help="processes for the engine's proposals (dynesty's pool and queue)")
     ap.add_argument("--work", default="runs/benchmark")
     args = ap.parse_args()
 
@@ -130,7 +134,11 @@ def main():
 
     rows = []
     t0 = time.time()
-    fit = fit_variant(campaign, "gr", work / "engine", progress=False)
+    pool = multiprocessing.get_context("spawn").Pool(args.workers) if args.workers > 1 else None
+    fit = fit_variant(campaign, "gr", work / "engine", progress=False, pool=pool,
+                      queue_size=args.workers if pool else None)
+    if pool:
+        pool.close()
     engine_s = time.time() - t0
     n_theta = model.layout.n_free
     rows.append(("engine", engine_s, fit.likelihood_calls, fit.log_z, fit.log_z_err,
