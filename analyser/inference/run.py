@@ -2,9 +2,10 @@
 the evidence cross-checks, in parallel processes where there are workers.
 
 `fit_variant` does one variant and returns a `VariantFit` (plain, picklable
-data); `fit_campaign` runs the requested variants, one process each when
-there are at least as many workers as variants, otherwise one after the
-other with the workers shared by dynesty's queue.  Each variant's seed is
+data); `fit_campaign` runs the requested variants in parallel processes, one
+per variant, confined to `workers` CPUs when there are more variants than
+workers (where the system cannot confine them, `workers` processes take the
+variants in turn); with one variant the workers share dynesty's queue.  Each variant's seed is
 derived from the campaign's seed and the variant's name, so results do not
 depend on the order or the parallelism.
 """
@@ -229,6 +230,11 @@ def _fit_in_subprocess(args):
     return fit_variant(campaign, variant, work_dir, resume=resume, progress=True, engine=engine)
 
 
+def _confine(cpus):
+    if cpus is not None:
+        os.sched_setaffinity(0, cpus)
+
+
 def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, engine=None,
                  scheduler=None):
     """Fit the variants (default: all of the campaign's); returns {name: VariantFit}."""
@@ -240,7 +246,16 @@ def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, eng
         return fit_on_cluster(campaign, work_dir, names, scheduler, resume=resume, engine=engine)
     out = {}
     if workers > 1 and len(names) > 1:
-        with ProcessPoolExecutor(max_workers=min(workers, len(names))) as ex:
+        processes, cpus = min(workers, len(names)), None
+        if workers < len(names) and hasattr(os, "sched_getaffinity"):
+            # more variants than workers: run them all at once, confined to
+            # `workers` CPUs, rather than leave CPUs idle while the last
+            # variants run alone
+            processes = len(names)
+            available = sorted(os.sched_getaffinity(0))
+            cpus = available[:workers] if len(available) > workers else None
+        with ProcessPoolExecutor(max_workers=processes, initializer=_confine,
+                                 initargs=(cpus,)) as ex:
             jobs = {n: ex.submit(_fit_in_subprocess, (campaign, n, work_dir, resume, engine))
                     for n in names}
             for n in names:
