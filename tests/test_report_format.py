@@ -105,3 +105,19 @@ def test_sky_axes_put_east_on_the_left():
     y0, y1 = ax.get_ylim()
     assert math.isclose(abs(x1 - x0), abs(y1 - y0))       # equal scale on both axes
     plt.close(fig)
+
+
+def test_mirror_split_far_from_its_laplace_value_is_flagged():
+    from types import SimpleNamespace
+    from analyser.report.headline import warnings
+
+    def bundle(sampled, expected):
+        mirror = {"modes": [{"fraction": 1 - sampled, "parameters": {}},
+                            {"fraction": sampled, "parameters": {}}],
+                  "log_like_difference": 0.3, "laplace_fractions": [1 - expected, expected]}
+        return SimpleNamespace(doc={"warnings": []},
+                               variants={"gr": {"mirror_ambiguity": {"XS-9": mirror}}})
+
+    flagged = [w for _, w in warnings(bundle(0.80, 0.40)) if "Laplace evidences" in w]
+    assert len(flagged) == 1 and "80%" in flagged[0] and "40%" in flagged[0]
+    assert not [w for _, w in warnings(bundle(0.55, 0.45)) if "Laplace evidences" in w]
