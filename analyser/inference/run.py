@@ -52,7 +52,7 @@ class VariantFit:
     iterations: int
     live_points: int
     efficiency: float
-    wall_seconds: float
+    wall_seconds: float          # nested sampling, every pass of this invocation
     prefit_seconds: float
     resumed: bool
     sampler_settings: dict
@@ -154,7 +154,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
         os.replace(tmp, prefit_file)
     prefit_seconds = time.time() - t0
     engine = engine or settings.engine
-    pilot_calls, pilot_notes = 0, []
+    pilot_calls, pilot_notes, sampling_seconds = 0, [], 0.0
     if engine == "blocked":
         # a quick first pass with few live points finds where the posterior
         # really is; its mean and covariance shape the final run's proposal
@@ -179,6 +179,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
             settings = replace(settings, proposal_widen=min(settings.proposal_widen,
                                                             CALIBRATED_WIDEN))
             pilot_calls = pilot.likelihood_calls
+            sampling_seconds += pilot.wall_seconds
             tmp = pilot_file.with_suffix(".tmp")
             tmp.write_bytes(pickle.dumps((prefit, pilot_calls, pilot_notes)))
             os.replace(tmp, pilot_file)
@@ -191,6 +192,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
                           resume=resume, pool=pool, queue_size=queue_size, seed=seed + attempt,
                           progress=progress, engine=engine,
                           label="" if attempt == 0 else f"retry {attempt}")
+        sampling_seconds += run.wall_seconds
         tails = _tail_fraction(run, run.space)
         if engine != "blocked" or tails <= RETRY_TAIL_FRACTION or attempt == MAX_RETRIES:
             break
@@ -217,7 +219,7 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
         information=float(res.information[-1]),
         likelihood_calls=run.likelihood_calls + pilot_calls,
         iterations=int(res.niter), live_points=int(res.nlive), efficiency=float(res.eff),
-        wall_seconds=run.wall_seconds, prefit_seconds=prefit_seconds, resumed=run.resumed,
+        wall_seconds=sampling_seconds, prefit_seconds=prefit_seconds, resumed=run.resumed,
         sampler_settings=run.settings, theta=theta, log_like=log_like, log_prior=log_prior,
         ess=float(ess), prefit=prefit,
         importance={"log_z": imp.log_z, "log_z_err": imp.log_z_err, "ess": imp.ess,
