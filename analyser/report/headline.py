@@ -92,21 +92,27 @@ def plain_words(text):
     return text[:1].upper() + text[1:]
 
 
+def _span(values, fmt):
+    """'59' or '59-82': a number said once for several variants."""
+    lo, hi = fmt.format(min(values)), fmt.format(max(values))
+    return lo if lo == hi else f"{lo}-{hi}"
+
+
 def warnings(bundle):
     """[(variant or '', plain text)] from the fit, then the report's own."""
     out = []
+    # warnings that differ between variants only by a number are said once,
+    # with the numbers' range: key -> (variants, values)
+    ranged = {}
     for name, v in bundle.variants.items():
         out += [(name, plain_words(w)) for w in v.get("warnings", [])]
         for star, info in v.get("mirror_ambiguity", {}).items():
             empty = [k + 1 for k, m in enumerate(info["modes"]) if not m.get("parameters")]
             delta = info.get("log_like_difference")
             if empty and delta is not None and abs(delta) > 3.0:
-                out.append((name, f"{star} has no velocities, yet only one of its two mirror "
-                                  f"solutions is populated: the other fits worse by "
-                                  f"{abs(delta):.0f} in ln L at its best, because the "
-                                  "light-travel time across the orbit changes sign with the "
-                                  "star's depth. The choice rests on that small effect (and "
-                                  "on the modelled errors) alone."))
+                entry = ranged.setdefault(("mirror", star), ([], []))
+                entry[0].append(name)
+                entry[1].append(abs(delta))
             elif empty:
                 out.append((name, f"{star} has no velocities, so its orbit has two mirror "
                                   f"solutions, but the samples populate only one (mode "
@@ -125,9 +131,21 @@ def warnings(bundle):
         ev = v.get("evidence_checks", {})
         ess, draws = ev.get("importance_ess"), ev.get("importance_draws")
         if ess is not None and draws and ess < 50:
-            out.append((name, f"The importance-sampling check of the evidence had an effective "
-                              f"sample size of only {ess:.1f} of {draws} draws, so it does not "
-                              "confirm the nested-sampling evidence either way."))
+            entry = ranged.setdefault(("ess", draws), ([], []))
+            entry[0].append(name)
+            entry[1].append(ess)
+    for (kind, what), (variants, values) in ranged.items():
+        if kind == "mirror":
+            text = (f"{what} has no velocities, yet only one of its two mirror solutions is "
+                    f"populated: the other fits worse by {_span(values, '{:.0f}')} in ln L at "
+                    "its best, because the light-travel time across the orbit changes sign "
+                    "with the star's depth. The choice rests on that small effect (and on the "
+                    "modelled errors) alone.")
+        else:
+            text = (f"The importance-sampling check of the evidence had an effective sample "
+                    f"size of only {_span(values, '{:.1f}')} of {what} draws, so it does not "
+                    "confirm the nested-sampling evidence either way.")
+        out += [(name, text) for name in variants]
     # the same sentence for several variants is said once, naming them all
     grouped = {}
     for variant, w in out:
