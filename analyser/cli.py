@@ -152,7 +152,7 @@ def build_parser():
     p.add_argument("campaign", help="campaign file (TOML)")
     p.add_argument("--out", required=True, help="bundle folder")
     p.add_argument("--resume", action="store_true", help="continue from the checkpoints in --out")
-    p.add_argument("--workers", type=int, default=1, help="processes (default 1)")
+    p.add_argument("--workers", type=int, default=1, help="CPUs to use (default 1)")
     p.add_argument("--variants", nargs="+", metavar="NAME", help="fit only these variants")
     p.add_argument("--engine", choices=("blocked", "stock"), default=None,
                    help="override the campaign's sampler engine")
@@ -168,7 +168,7 @@ def build_parser():
     p.add_argument("campaign", help="campaign file (TOML)")
     p.add_argument("--out", required=True, help="bundle folder (reruns continue from it)")
     p.add_argument("--baseline", metavar="OLD_DIR", help="last season's bundle to compare with")
-    p.add_argument("--workers", type=int, default=2, help="processes (default 2)")
+    p.add_argument("--workers", type=int, default=2, help="CPUs to use (default 2)")
     p.add_argument("--junit", metavar="FILE", help="also write the gates as JUnit XML")
     p.add_argument("--scheduler", metavar="tcp://HOST:PORT",
                    help="run on a Dask distributed cluster")

@@ -725,12 +725,13 @@ def mode_evidences(model, prefit, s):
     """Laplace ln Z of each of star s's prefit modes, every parameter free:
     Newton from the joint mode with the star's block set to that mode.
     Their differences predict the posterior mass in each mode (the check
-    of the sampler's split between the mirror modes)."""
+    of the sampler's split between the mirror modes).  The first mode is
+    the joint mode itself, whose Laplace evidence the prefit already holds."""
     post = FitPosterior(model)
     steps = 0.2 * prefit.sigma
     blk = model.layout.block_of_star(s)
-    out = []
-    for mode in prefit.star_modes[s]:
+    out = [float(prefit.laplace_log_z)]
+    for mode in prefit.star_modes[s][1:]:
         phi = prefit.phi.copy()
         phi[blk] = _mode_in_fit(post, s, mode.values)
         out.append(float(laplace_at_mode(post, phi, steps)[3]))
