@@ -25,13 +25,11 @@ from numba import njit
 from ..physics.constants import C_AU_YR, GM_SUN
 from ..physics.dynamics import KIND_BY_NAME, NUMERICAL_1PN
 from ..physics.integrator import STEPS_PER_ORBIT
-from ..physics.observables import integrate_star, observe_star
+from ..physics.observables import integrate_star, observe_integrated, observe_orbit
 from ..physics.orbits import MEAN_MOTION, ORBIT_SIZE, T_P, orbit_constants, orbit_is_bound
 from .layout import N_GLOBAL, N_STAR, build_layout
 
 _LOG_2PI = math.log(2.0 * math.pi)
-_NO_NODES = np.empty((0, 7))
-_NO_PAR = np.empty(3)
 
 
 class DataArrays(NamedTuple):
@@ -105,11 +103,11 @@ def star_predict(s, full, d, out_x, out_y, out_v):
                         math.radians(full[o + 3]), math.radians(full[o + 4]), orbit[T_P]))
         nodes, par = integrate_star(row, mu, full[7] / (C_AU_YR * C_AU_YR), C_AU_YR,
                                     d.obs_t[lo:hi].min(), d.obs_t[lo:hi].max(), STEPS_PER_ORBIT)
-        observe_star(NUMERICAL_1PN, orbit, nodes, par, d.obs_t[lo:hi], d.obs_need_v[lo:hi],
-                     mu, C_AU_YR, full[8], mas_per_au, frame, True, px, py, pv, pt)
+        observe_integrated(nodes, par, d.obs_t[lo:hi], d.obs_need_v[lo:hi], mu, C_AU_YR,
+                           full[8], mas_per_au, frame, px, py, pv, pt)
     else:
-        observe_star(1, orbit, _NO_NODES, _NO_PAR, d.obs_t[lo:hi], d.obs_need_v[lo:hi],
-                     mu, C_AU_YR, full[8], mas_per_au, frame, True, px, py, pv, pt)
+        observe_orbit(orbit, d.obs_t[lo:hi], d.obs_need_v[lo:hi], mu, C_AU_YR, full[8],
+                      mas_per_au, frame, True, px, py, pv, pt)
     a0 = d.astro_first[s]
     na = d.astro_first[s + 1] - a0
     for k in range(na):

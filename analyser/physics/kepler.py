@@ -4,20 +4,24 @@ The solver is Markley's non-iterative method (F. L. Markley 1995, Celestial
 Mechanics and Dynamical Astronomy 63, 101): a cubic-root starter accurate to
 ~4e-4 rad followed by one fifth-order correction, which leaves ~2e-15 rad
 over 0 <= e <= 0.999 (tests/test_kepler.py checks it against 40-digit
-solutions).  It costs one sine and one cosine, and returns sin E and cos E
-as well, rotated through the small correction by a Taylor series, so callers
-need no further trigonometry.  The mean anomaly is reduced to [-pi, pi) and
+solutions).  It needs one sine and cosine and one cube root, taken from
+vectormath.py so that loops over epochs vectorise, and returns sin E and
+cos E as well, rotated through the small correction by a Taylor series, so
+callers need no further trigonometry.  The mean anomaly is reduced to [-pi, pi) and
 the revolution count restored, so E is continuous in M across revolutions.
 
-`kepler_sincos` is the compiled scalar kernel used inside other compiled
-code; `solve_kepler` is the validated, vectorised entry point for Python.
-Outside 0 <= e <= 0.999 both raise instead of returning a wrong answer.
+`kepler_unchecked` is the branch-free kernel for compiled loops whose
+caller has checked e; `kepler_sincos` checks and raises; `solve_kepler` is
+the validated, vectorised entry point for Python.  Outside 0 <= e <= 0.999
+the checked ones raise instead of returning a wrong answer.
 """
 
 import math
 
 import numpy as np
 from numba import njit
+
+from .vectormath import cbrt, sincos
 
 E_MAX = 0.999
 _TWO_PI = 2.0 * math.pi
@@ -32,7 +36,7 @@ _S3, _S5, _S7, _S9, _S11, _S13 = (1 / 6, 1 / 20, 1 / 42, 1 / 72, 1 / 110, 1 / 15
 _C2, _C4, _C6, _C8, _C10, _C12, _C14 = (1 / 2, 1 / 12, 1 / 30, 1 / 56, 1 / 90, 1 / 132, 1 / 182)
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always", error_model="numpy")
 def sincos_small(x):
     """(sin x, cos x) by Taylor series, to rounding for |x| <= 0.3."""
     x2 = x * x
@@ -43,26 +47,24 @@ def sincos_small(x):
     return s, c
 
 
-@njit(cache=True)
-def kepler_sincos(mean_anomaly, e):
-    """(E, sin E, cos E) for mean anomaly M (any revolution), 0 <= e <= 0.999."""
-    if not (0.0 <= e <= E_MAX):
-        raise ValueError("eccentricity outside 0 <= e <= 0.999")
+@njit(cache=True, inline="always", error_model="numpy")
+def kepler_unchecked(mean_anomaly, e):
+    """(E, sin E, cos E) for 0 <= e <= 0.999, not checked: branch-free, so that
+    loops over epochs vectorise (the caller checks e once per orbit)."""
     turns = math.floor((mean_anomaly + math.pi) / _TWO_PI)
-    m = mean_anomaly - turns * _TWO_PI
-    sign = 1.0
-    if m < 0.0:
-        m = -m
-        sign = -1.0
+    m_signed = mean_anomaly - turns * _TWO_PI
+    m = abs(m_signed)
+    sign = math.copysign(1.0, m_signed)
     # Markley's starter on [0, pi]
     alpha = (3.0 * _PI2 + 1.6 * math.pi * (math.pi - m) / (1.0 + e)) * _INV_PI2_6
     d = 3.0 * (1.0 - e) + alpha * e
     q = 2.0 * alpha * d * (1.0 - e) - m * m
     r = 3.0 * alpha * d * (d - 1.0 + e) * m + m * m * m
-    w = (abs(r) + math.sqrt(q * q * q + r * r)) ** (2.0 / 3.0)
+    w = cbrt(abs(r) + math.sqrt(q * q * q + r * r))
+    w *= w
     e1 = (2.0 * r * w / (w * w + w * q + q * q) + m) / d
     # one fifth-order correction (Markley's eqs. 21-25)
-    s1, c1 = math.sin(e1), math.cos(e1)
+    s1, c1 = sincos(e1)
     f0 = e1 - e * s1 - m
     f1 = 1.0 - e * c1
     f2 = e * s1
@@ -78,16 +80,24 @@ def kepler_sincos(mean_anomaly, e):
 
 
 @njit(cache=True)
+def kepler_sincos(mean_anomaly, e):
+    """(E, sin E, cos E) for mean anomaly M (any revolution), 0 <= e <= 0.999."""
+    if not (0.0 <= e <= E_MAX):
+        raise ValueError("eccentricity outside 0 <= e <= 0.999")
+    return kepler_unchecked(mean_anomaly, e)
+
+
+@njit(cache=True)
 def eccentric_anomaly(mean_anomaly, e):
     """E (rad) for mean anomaly M (rad, any revolution) and 0 <= e <= 0.999."""
     return kepler_sincos(mean_anomaly, e)[0]
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def _solve_many(mean_anomaly, e):
     out = np.empty(mean_anomaly.size)
     for k in range(mean_anomaly.size):
-        out[k] = eccentric_anomaly(mean_anomaly[k], e[k])
+        out[k] = kepler_unchecked(mean_anomaly[k], e[k])[0]
     return out
 
 

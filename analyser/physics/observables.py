@@ -24,11 +24,11 @@ from numba import njit
 
 from .constants import C_AU_YR, GM_SUN, KM_S_PER_AU_YR
 from .elements import ELEMENT_KEYS, semi_major_axis_au
-from .dynamics import ANALYTIC_1PN, NUMERICAL_1PN, advance_phase, start_phase, star_state
-from .integrator import STEPS_PER_ORBIT, integrate_nodes
+from .integrator import STEPS_PER_ORBIT, integrate_nodes, nodes_state
 from .kepler import E_MAX
-from .light import emission_from, line_of_sight_velocity
-from .orbits import MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, orbit_constants, orbit_state
+from .light import first_order_shift, line_of_sight_velocity, newton_passes, roemer_step
+from .orbits import (MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, orbit_constants, orbit_is_bound,
+                     orbit_state, orbit_tuple)
 
 DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
 GLOBAL_KEYS = ("mass_msun", "distance_pc", "x0_mas", "y0_mas", "vx0_mas_yr",
@@ -63,41 +63,39 @@ def build_orbits(elements, mu, eps):
     return out
 
 
-@njit(cache=True)
-def observe_star(kind, orbit, nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
-                 light_travel, out_x, out_y, out_v, out_t_em):
-    """Observables of one star at arrival epochs t_obs (see dynamics.start_phase
-    for kind/orbit/nodes/par); velocities only where need_v."""
-    have_previous = False
-    delay = 0.0
-    phase = start_phase(kind, orbit, nodes, par, t_obs[0]) if t_obs.size else \
-        (0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
-    t_phase = t_obs[0] if t_obs.size else 0.0
-    for k in range(t_obs.size):
-        if light_travel:
-            # start from the previous epoch: same delay, its phase moved on
-            guess = t_obs[k] - delay
-            if have_previous:
-                phase = advance_phase(kind, orbit, nodes, par, phase, guess - t_phase, guess)
-            else:
-                phase = start_phase(kind, orbit, nodes, par, guess)
-            x, y, z, vx, vy, vz, t_em, phase, t_phase = emission_from(
-                kind, orbit, nodes, par, t_obs[k], c, mu, phase, guess)
-            delay = t_obs[k] - t_em
-            have_previous = True
-        else:
-            t_em = t_obs[k]
-            x, y, z, vx, vy, vz = star_state(kind, orbit, nodes, par, t_em)
-        dt = t_obs[k] - frame[5]
-        out_x[k] = x * mas_per_au + frame[0] + frame[2] * dt
-        out_y[k] = y * mas_per_au + frame[1] + frame[3] * dt
-        out_t_em[k] = t_em
-        if need_v[k]:
-            r = math.sqrt(x * x + y * y + z * z)
-            v = line_of_sight_velocity(vx, vy, vz, r, mu, c, f_z)
-            out_v[k] = v * KM_S_PER_AU_YR + frame[4]
-        else:
-            out_v[k] = np.nan
+@njit(cache=True, inline="always", error_model="numpy")
+def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                out_x, out_y, out_v, out_t_em):
+    """Epoch k's last Roemer step (first order) and its observables."""
+    x, y, z, vx, vy, vz = state
+    step = roemer_step(out_t_em[k], t_obs[k], z, vz, c) if light_travel else 0.0
+    x, y, z, vx, vy, vz = first_order_shift(x, y, z, vx, vy, vz, step, mu)
+    out_t_em[k] -= step
+    dt = t_obs[k] - frame[5]
+    out_x[k] = x * mas_per_au + frame[0] + frame[2] * dt
+    out_y[k] = y * mas_per_au + frame[1] + frame[3] * dt
+    r = math.sqrt(x * x + y * y + z * z)
+    v = line_of_sight_velocity(vx, vy, vz, r, mu, c, f_z) * KM_S_PER_AU_YR + frame[4]
+    out_v[k] = v if need_v[k] else np.nan
+
+
+@njit(cache=True, error_model="numpy", fastmath={"contract"})
+def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
+                  out_x, out_y, out_v, out_t_em):
+    """Observables of one star on a packed closed-form orbit at arrival epochs
+    t_obs; velocities only where need_v (NaN elsewhere).  The orbit must pass
+    orbits.orbit_is_bound.  Each loop over epochs is branch-free and vectorises."""
+    orbit = orbit_tuple(orbit)   # constants in registers: outputs cannot alias them
+    n = t_obs.size
+    for k in range(n):
+        out_t_em[k] = t_obs[k]
+    for _ in range(newton_passes(mu, c) if light_travel else 0):
+        for k in range(n):
+            x, y, z, vx, vy, vz = orbit_state(orbit, out_t_em[k])
+            out_t_em[k] -= roemer_step(out_t_em[k], t_obs[k], z, vz, c)
+    for k in range(n):
+        _final_step(k, orbit_state(orbit, out_t_em[k]), light_travel, t_obs, need_v, mu, c,
+                    f_z, mas_per_au, frame, out_x, out_y, out_v, out_t_em)
 
 
 @njit(cache=True)
@@ -108,21 +106,30 @@ def observe_stars(orbits, first, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
     Observations of star s occupy rows first[s]:first[s+1] of t_obs (arrival
     epochs, yr), need_v (whether a velocity is wanted) and the outputs.
     """
-    no_nodes = np.empty((0, 7))
-    no_par = np.empty(3)
     for s in range(orbits.shape[0]):
+        if not orbit_is_bound(orbits[s]):
+            raise ValueError("orbit constants do not describe a bound orbit")
         lo, hi = first[s], first[s + 1]
-        observe_star(ANALYTIC_1PN, orbits[s], no_nodes, no_par, t_obs[lo:hi], need_v[lo:hi],
-                     mu, c, f_z, mas_per_au, frame, light_travel, out_x[lo:hi],
-                     out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
+        observe_orbit(orbits[s], t_obs[lo:hi], need_v[lo:hi], mu, c, f_z, mas_per_au, frame,
+                      light_travel, out_x[lo:hi], out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
 
 
 @njit(cache=True)
 def observe_integrated(nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
                        out_x, out_y, out_v, out_t_em, light_travel=True):
-    """Observables of one star from integration nodes (par = (ds, mu, eps))."""
-    observe_star(NUMERICAL_1PN, np.empty(ORBIT_SIZE), nodes, par, t_obs, need_v, mu, c, f_z,
-                 mas_per_au, frame, light_travel, out_x, out_y, out_v, out_t_em)
+    """Observables of one star from integration nodes (par = (ds, mu, eps)),
+    with the same Roemer passes as `observe_orbit`."""
+    n = t_obs.size
+    for k in range(n):
+        out_t_em[k] = t_obs[k]
+    for _ in range(newton_passes(mu, c) if light_travel else 0):
+        for k in range(n):
+            x, y, z, vx, vy, vz = nodes_state(nodes, par[0], par[1], par[2], out_t_em[k])
+            out_t_em[k] -= roemer_step(out_t_em[k], t_obs[k], z, vz, c)
+    for k in range(n):
+        _final_step(k, nodes_state(nodes, par[0], par[1], par[2], out_t_em[k]), light_travel,
+                    t_obs, need_v, mu, c, f_z, mas_per_au, frame, out_x, out_y, out_v,
+                    out_t_em)
 
 
 @njit(cache=True)

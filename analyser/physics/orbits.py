@@ -54,7 +54,8 @@ from numba import njit
 
 from .constants import C_AU_YR, GM_SUN
 from .elements import orientation
-from .kepler import kepler_sincos, sincos_small
+from .kepler import kepler_unchecked
+from .vectormath import atan2_right, expm1, sincos
 
 # Layout of the packed orbit array.
 T_P, MEAN_MOTION, E_T, A_R, E_R, ONE_PLUS_K, BETA_PHI, ROOT_PHI = range(8)
@@ -126,18 +127,28 @@ def orbit_constants(period, e, i, big_omega, omega, t_p, mu, eps, out):
 
 _PERIOD_NODES = 32
 _ANGLE_NODES = 16
+# cosines and |sines| of the midpoint nodes of both quadratures
+_U = (np.arange(_PERIOD_NODES) + 0.5) * 2.0 * math.pi / _PERIOD_NODES
+_V = (np.arange(_ANGLE_NODES) + 0.5) * 2.0 * math.pi / _ANGLE_NODES
+_COS_U, _SIN_U = np.cos(_U), np.abs(np.sin(_U))
+_COS_V, _SIN_V = np.cos(_V), np.abs(np.sin(_V))
 
 
-@njit(cache=True)
-def _radial_speed2(s, s_p, c2, mu, lam):
-    """(dr/dt)^2 at inverse radius s on the orbit with periapsis 1/s_p."""
-    g = (-c2 * (s * s * math.exp(-2.0 * lam * s) - s_p * s_p * math.exp(-2.0 * lam * s_p))
-         - 4.0 / 3.0 * mu * (s * math.exp(6.0 * lam * s) - s_p * math.exp(6.0 * lam * s_p))
-         + 5.0 * mu / (9.0 * lam) * math.exp(6.0 * lam * s_p) * math.expm1(6.0 * lam * (s - s_p)))
-    return g * math.exp(-6.0 * lam * s)
+@njit(cache=True, inline="always", error_model="numpy")
+def _radial_terms(s, s_p, c2, mu, lam, a_p, b_p):
+    """(g, exp(6 lam s), exp(-2 lam s)) at inverse radius s, where
+    g = (dr/dt)^2 exp(6 lam s) on the orbit with periapsis 1/s_p
+    (a_p = exp(-2 lam s_p), b_p = exp(6 lam s_p)).  Written in s - s_p, with
+    expm1, so that no term loses precision near the periapsis."""
+    d = s - s_p
+    m2 = expm1(-2.0 * lam * d)
+    m6 = expm1(6.0 * lam * d)
+    g = (-c2 * a_p * (d * (s + s_p) + s * s * m2) - 4.0 / 3.0 * mu * b_p * (d + s * m6)
+         + 5.0 * mu / (9.0 * lam) * b_p * m6)
+    return g, b_p * (1.0 + m6), a_p * (1.0 + m2)
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy", fastmath={"reassoc", "contract"})
 def _secular_terms(r_p, v_p, mu, eps, r_a_guess):
     """Exact radial period, apsidal constant k and turning-point (a, e).
 
@@ -146,14 +157,15 @@ def _secular_terms(r_p, v_p, mu, eps, r_a_guess):
     """
     lam = eps * mu
     s_p = 1.0 / r_p
+    a_p = math.exp(-2.0 * lam * s_p)
+    b_p = math.exp(6.0 * lam * s_p)
     c = r_p * v_p * math.exp(4.0 * lam * s_p)
     c2 = c * c
-    # apoapsis: the other root of r'^2 exp(6 lam s), by Newton's method in s
+    # apoapsis: the other root of g, by Newton's method in s
     s = 1.0 / r_a_guess
     for _ in range(50):
-        g = _radial_speed2(s, s_p, c2, mu, lam) * math.exp(6.0 * lam * s)
-        dg = -2.0 * (c2 * math.exp(-2.0 * lam * s) * (s - lam * s * s)
-                     + mu * math.exp(6.0 * lam * s) * (4.0 * lam * s - 1.0))
+        g, e6, e2 = _radial_terms(s, s_p, c2, mu, lam, a_p, b_p)
+        dg = -2.0 * (c2 * e2 * (s - lam * s * s) + mu * e6 * (4.0 * lam * s - 1.0))
         step = g / dg
         s -= step
         if abs(step) < 1e-15 * s:
@@ -164,106 +176,46 @@ def _secular_terms(r_p, v_p, mu, eps, r_a_guess):
     # radial period: integrate dt/du with r = a (1 - e cos u)
     period = 0.0
     for j in range(_PERIOD_NODES):
-        u = (j + 0.5) * 2.0 * math.pi / _PERIOD_NODES
-        r = a * (1.0 - e * math.cos(u))
-        period += a * e * abs(math.sin(u)) / math.sqrt(_radial_speed2(1.0 / r, s_p, c2, mu, lam))
+        s = 1.0 / (a * (1.0 - e * _COS_U[j]))
+        g, e6, _ = _radial_terms(s, s_p, c2, mu, lam, a_p, b_p)
+        period += a * e * _SIN_U[j] * math.sqrt(e6 / g)
     period *= 2.0 * math.pi / _PERIOD_NODES
     # apsidal angle: integrate dphi/dV with r = a (1 - e^2) / (1 + e cos V)
     angle = 0.0
     semi_latus = a * (1.0 - e * e)
+    h_p = c * math.exp(-4.0 * lam * s_p)
     for j in range(_ANGLE_NODES):
-        v = (j + 0.5) * 2.0 * math.pi / _ANGLE_NODES
-        den = 1.0 + e * math.cos(v)
-        r = semi_latus / den
-        dr_dv = semi_latus * e * abs(math.sin(v)) / (den * den)
-        h = c * math.exp(-4.0 * lam / r)
-        angle += h / (r * r) * dr_dv / math.sqrt(_radial_speed2(1.0 / r, s_p, c2, mu, lam))
+        den = 1.0 + e * _COS_V[j]
+        s = den / semi_latus
+        dr_dv = semi_latus * e * _SIN_V[j] / (den * den)
+        g, e6, _ = _radial_terms(s, s_p, c2, mu, lam, a_p, b_p)
+        h = h_p * (1.0 + expm1(-4.0 * lam * (s - s_p)))
+        angle += h * s * s * dr_dv * math.sqrt(e6 / g)
     angle *= 2.0 * math.pi / _ANGLE_NODES
     return period, angle / (2.0 * math.pi) - 1.0, a, e
 
 
-_A3, _A5, _A7, _A9, _A11, _A13, _A15 = (1 / 3, 1 / 5, 1 / 7, 1 / 9, 1 / 11, 1 / 13, 1 / 15)
+@njit(cache=True, inline="always")
+def orbit_tuple(orbit):
+    """The packed orbit as a tuple, for loops that must keep it in registers."""
+    return (orbit[0], orbit[1], orbit[2], orbit[3], orbit[4], orbit[5], orbit[6], orbit[7],
+            orbit[8], orbit[9], orbit[10], orbit[11], orbit[12], orbit[13])
 
-# A phase is (u, sin u, cos u, phi, sin phi, cos phi) on a packed orbit.
 
-@njit(cache=True)
-def orbit_phase(orbit, t):
-    """Phase at coordinate time t, from Kepler's equation."""
-    u, su, cu = kepler_sincos(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T])
+@njit(cache=True, inline="always", error_model="numpy")
+def orbit_state(orbit, t):
+    """State (x, y, z, vx, vy, vz) at coordinate time t; AU, AU/yr.
+
+    Branch-free, so that loops over epochs vectorise; the orbit (array or
+    `orbit_tuple`) must have passed `orbit_is_bound`."""
+    u, su, cu = kepler_unchecked(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T])
     beta = orbit[BETA_PHI]
-    if orbit[ONE_PLUS_K] == 1.0:
-        # Keplerian: the true anomaly's sine and cosine follow algebraically
-        e = orbit[E_R]
-        den = 1.0 - e * cu
-        return u, su, cu, np.nan, orbit[ROOT_PHI] * su / den, (cu - e) / den
-    phi = orbit[ONE_PLUS_K] * (u + 2.0 * math.atan2(beta * su, 1.0 - beta * cu))
-    return u, su, cu, phi, math.sin(phi), math.cos(phi)
-
-
-@njit(cache=True)
-def _atan_small(x):
-    """atan x by its series, to rounding for |x| <= 0.1."""
-    x2 = x * x
-    return x * (1.0 - x2 * (_A3 - x2 * (_A5 - x2 * (_A7 - x2 * (
-        _A9 - x2 * (_A11 - x2 * (_A13 - x2 * _A15)))))))
-
-
-@njit(cache=True)
-def shift_phase(orbit, phase, dt, t_new):
-    """Phase at t_new = t + dt from the phase at t, for small dt.
-
-    Solves Kepler's equation for the increment of u with Taylor-series sines
-    (no trigonometric calls) and rotates the orbital angle by its increment;
-    steps too large for the series fall back to `orbit_phase(orbit, t_new)`.
-    This is what makes the Roemer-delay iteration cheap.
-    """
-    u, su, cu, phi, sphi, cphi = phase
-    e_t = orbit[E_T]
-    dm = orbit[MEAN_MOTION] * dt
-    delta = dm / (1.0 - e_t * cu)
-    for _ in range(10):
-        if abs(delta) > 0.25:
-            return orbit_phase(orbit, t_new)
-        sd, cd = sincos_small(delta)
-        s_new = su * cd + cu * sd
-        c_new = cu * cd - su * sd
-        g = delta - e_t * (s_new - su) - dm
-        g1 = 1.0 - e_t * c_new
-        step = g / g1
-        step = g / (g1 - 0.5 * step * e_t * s_new)
-        delta -= step
-        # Halley is cubic: a step below 1e-6 leaves an error below ~1e-16
-        # (the cubic constant is < 200 for e <= 0.999)
-        if abs(step) < 1e-6:
-            break
-    sd, cd = sincos_small(delta)
-    s_new = su * cd + cu * sd
-    c_new = cu * cd - su * sd
-    # V(u) = u + 2 theta(u), theta the angle of (1 - beta cos u, beta sin u)
-    beta = orbit[BETA_PHI]
-    a0, b0 = 1.0 - beta * cu, beta * su
-    a1, b1 = 1.0 - beta * c_new, beta * s_new
-    cross = a0 * b1 - b0 * a1
-    dot = a0 * a1 + b0 * b1
-    ratio = cross / dot
-    d_theta = _atan_small(ratio) if abs(ratio) < 0.1 else math.atan2(cross, dot)
-    d_phi = orbit[ONE_PLUS_K] * (delta + 2.0 * d_theta)
-    if abs(d_phi) <= 0.3:
-        sp, cp = sincos_small(d_phi)
-    else:
-        sp, cp = math.sin(d_phi), math.cos(d_phi)
-    return (u + delta, s_new, c_new, phi + d_phi, sphi * cp + cphi * sp, cphi * cp - sphi * sp)
-
-
-@njit(cache=True)
-def phase_state(orbit, phase):
-    """State (x, y, z, vx, vy, vz) in AU and AU/yr at a phase."""
-    u, su, cu, phi, sp, cp = phase
-    n = orbit[MEAN_MOTION]
+    phi = orbit[ONE_PLUS_K] * (u + 2.0 * atan2_right(beta * su, 1.0 - beta * cu))
+    sp, cp = sincos(phi)
     e_r = orbit[E_R]
     a_r = orbit[A_R]
     r = a_r * (1.0 - e_r * cu)
-    udot = n / (1.0 - orbit[E_T] * cu)
+    udot = orbit[MEAN_MOTION] / (1.0 - orbit[E_T] * cu)
     rdot = a_r * e_r * su * udot
     phidot = orbit[ONE_PLUS_K] * orbit[ROOT_PHI] / (1.0 - e_r * cu) * udot
     # in-plane components along P (periapsis) and Q
@@ -274,12 +226,6 @@ def phase_state(orbit, phase):
     return (xp * orbit[8] + yq * orbit[11], xp * orbit[9] + yq * orbit[12],
             xp * orbit[10] + yq * orbit[13], vxp * orbit[8] + vyq * orbit[11],
             vxp * orbit[9] + vyq * orbit[12], vxp * orbit[10] + vyq * orbit[13])
-
-
-@njit(cache=True)
-def orbit_state(orbit, t):
-    """State (x, y, z, vx, vy, vz) at coordinate time t; AU, AU/yr."""
-    return phase_state(orbit, orbit_phase(orbit, t))
 
 
 def periapsis_advance_rad(mass_msun, a_au, e, f_sp=1.0):
