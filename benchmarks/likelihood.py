@@ -8,7 +8,6 @@ the block sampler updates them).  An observation is an astrometric epoch
 """
 
 import argparse
-import time
 from pathlib import Path
 
 import numpy as np
@@ -16,19 +15,9 @@ import numpy as np
 from analyser.data.loader import load
 from analyser.inference.likelihood import JointModel, all_star_loglikes, star_loglike
 from analyser.inference.prefit import run_prefit
+from forward_model import best_time   # the sibling script (benchmarks/ is on sys.path)
 
 ROOT = Path(__file__).resolve().parents[1]
-
-
-def best_time(fn, min_seconds=1.0):
-    fn()
-    best, spent, reps = np.inf, 0.0, 0
-    while spent < min_seconds or reps < 5:
-        t0 = time.perf_counter()
-        fn()
-        dt = time.perf_counter() - t0
-        best, spent, reps = min(best, dt), spent + dt, reps + 1
-    return best
 
 
 def main():
