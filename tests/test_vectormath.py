@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from numba import njit
 
-from analyser.physics.vectormath import atan2_right, cbrt, expm1, sincos
+from analyser.physics.vectormath import atan2_right, cbrt, exp, expm1, log, sincos
 
 mpmath.mp.dps = 40
 
@@ -77,3 +77,30 @@ def test_expm1_relative_accuracy_small_and_large():
     for v in (1e-20, -3e-9, 0.34, -0.35, 0.35, 1.0, -5.0, 300.0):
         _apply(2, np.array([v]), np.zeros(1), out[:1])
         assert abs(out[0] / float(mpmath.expm1(v)) - 1.0) < 1e-15
+
+
+@njit(error_model="numpy")
+def _exp_log(x, out_exp, out_log):
+    for k in range(x.size):
+        out_exp[k] = exp(x[k])
+        out_log[k] = log(abs(x[k])) if x[k] != 0.0 else 0.0
+
+
+def test_exp_and_log_relative_accuracy():
+    rng = np.random.default_rng(5)
+    x = rng.uniform(-700.0, 700.0, 200_000)
+    e, l = np.empty_like(x), np.empty_like(x)
+    _exp_log(x, e, l)
+    assert np.max(np.abs(e / np.exp(x) - 1.0)) < 1e-15
+    y = 10.0 ** rng.uniform(-300, 300, 200_000)
+    _exp_log(y, e, l)
+    assert np.max(np.abs(l - np.log(y)) / np.maximum(1.0, np.abs(np.log(y)))) < 3e-16
+    z = rng.uniform(0.5, 2.0, 200_000)        # near 1, where log is small
+    _exp_log(z, e, l)
+    assert np.max(np.abs(l - np.log(z))) < 2e-16
+    _exp_log(np.array([1.0, math.e, 0.0, -800.0]), e[:4], l[:4])
+    assert l[0] == 0.0 and abs(l[1] - 1.0) < 2e-16 and e[2] == 1.0
+    assert 0.0 < e[3] < 1e-307       # clamped, never zero: ln of a sum stays finite
+    for v in (2.0, 10.0, 1e-5, 123456.789):
+        _exp_log(np.array([v]), e[:1], l[:1])
+        assert abs(l[0] - float(mpmath.log(v))) < 3e-16 * max(1.0, abs(l[0]))

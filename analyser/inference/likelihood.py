@@ -27,6 +27,7 @@ from ..physics.dynamics import KIND_BY_NAME, NUMERICAL_1PN
 from ..physics.integrator import STEPS_PER_ORBIT
 from ..physics.observables import integrate_star, observe_integrated, observe_orbit
 from ..physics.orbits import MEAN_MOTION, ORBIT_SIZE, T_P, orbit_constants, orbit_is_bound
+from ..physics.vectormath import exp, log
 from .layout import N_GLOBAL, N_STAR, build_layout
 
 _LOG_2PI = math.log(2.0 * math.pi)
@@ -122,33 +123,63 @@ def star_predict(s, full, d, out_x, out_y, out_v):
     return True
 
 
-@njit(cache=True)
-def _errors(inst, sigma, full, d):
-    """Effective error of a point of instrument `inst` with quoted error sigma."""
-    i_s = d.inst_scale[inst]
-    if i_s >= 0:
-        sigma = sigma * full[i_s]
-    i_j = d.inst_jitter[inst]
-    if i_j >= 0:
-        sigma = math.sqrt(sigma * sigma + full[i_j] * full[i_j])
-    return sigma
+# rows of the instrument-term array
+_SCALE, _JITTER2, _LOG_KEEP, _LOG_Q, _WIDTH, _LOG_WIDTH = range(6)
 
 
 @njit(cache=True)
-def _mixture(inst, q_form, log_norm, ndim, full, d):
-    """ln density of a point from its quadratic form and ln normalisation,
-    with the instrument's outlier mixture if it has one."""
+def _instrument_terms(full, d):
+    """(6, n_instruments): error scale, jitter^2, ln(1 - q), ln q, outlier
+    width W and ln W, neutral where the instrument has no such term (q = 0:
+    ln q = -inf), so that the loops over points need no branches."""
+    n = d.inst_scale.size
+    t = np.zeros((6, n))
+    t[_SCALE] = 1.0
+    t[_LOG_Q] = -np.inf
+    t[_WIDTH] = 1.0
+    for i in range(n):
+        if d.inst_scale[i] >= 0:
+            t[_SCALE, i] = full[d.inst_scale[i]]
+        if d.inst_jitter[i] >= 0:
+            t[_JITTER2, i] = full[d.inst_jitter[i]] ** 2
+        if d.inst_outlier[i] >= 0:
+            q = full[d.inst_outlier[i]]
+            t[_LOG_KEEP, i] = math.log1p(-q) if q < 1.0 else -np.inf
+            t[_LOG_Q, i] = math.log(q) if q > 0.0 else -np.inf
+            t[_WIDTH, i] = d.inst_width[i]
+            t[_LOG_WIDTH, i] = math.log(d.inst_width[i])
+    return t
+
+
+@njit(cache=True)
+def _terms_per_row(terms, inst):
+    """The instrument terms copied out to every row (6, n_rows), so that the
+    loops over points read contiguous rows instead of gathering."""
+    out = np.empty((6, inst.size))
+    for f in range(6):
+        for j in range(inst.size):
+            out[f, j] = terms[f, inst[j]]
+    return out
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _error(sigma, t, j):
+    """Effective error: quoted error times the scale, jitter added in quadrature."""
+    return math.sqrt((sigma * t[_SCALE, j]) ** 2 + t[_JITTER2, j])
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _point_density(q_form, log_norm, ndim, t, j):
+    """ln density of a point from its quadratic form and ln normalisation: the
+    mixture (1 - q) p + q p_W of its instrument (terms t[:, j]), which is
+    exactly p when q = 0."""
     core = -0.5 * q_form - log_norm
-    i_q = d.inst_outlier[inst]
-    if i_q < 0:
-        return core
-    q = full[i_q]
-    w = d.inst_width[inst]
-    broad = -0.5 * q_form / (w * w) - log_norm - ndim * math.log(w)
-    a = math.log1p(-q) + core if q < 1.0 else -np.inf
-    b = math.log(q) + broad if q > 0.0 else -np.inf
-    top = max(a, b)
-    return top + math.log(math.exp(a - top) + math.exp(b - top))
+    w = t[_WIDTH, j]
+    broad = -0.5 * q_form / (w * w) - log_norm - ndim * t[_LOG_WIDTH, j]
+    a = t[_LOG_KEEP, j] + core
+    b = t[_LOG_Q, j] + broad
+    top = a if a > b else b
+    return top + log(exp(a - top) + exp(b - top))
 
 
 @njit(cache=True)
@@ -163,33 +194,49 @@ def _star_model(s, full, d):
     return bound, na, nv, mx, my, mv
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy", fastmath={"contract"})
 def star_loglike(s, full, d):
-    """ln L_s: the log-likelihood of star s's data."""
+    """ln L_s: the log-likelihood of star s's data.  The point loops are
+    branch-free and vectorise; their terms are summed afterwards in order."""
     bound, na, nv, mx, my, mv = _star_model(s, full, d)
     if not bound:
         return -np.inf
-    total = 0.0
+    terms = _instrument_terms(full, d)
+    # slices indexed from 0: the compiler sees non-negative, affine indices
     a0 = d.astro_first[s]
-    for k in range(na):
-        r = a0 + k
-        inst = d.ainst[r]
-        sx = _errors(inst, d.asx[r], full, d)
-        sy = _errors(inst, d.asy[r], full, d)
-        rho = d.arho[r]
-        zx = (d.ax[r] - mx[k]) / sx
-        zy = (d.ay[r] - my[k]) / sy
+    ax, ay = d.ax[a0:a0 + na], d.ay[a0:a0 + na]
+    asx, asy, arho = d.asx[a0:a0 + na], d.asy[a0:a0 + na], d.arho[a0:a0 + na]
+    t = _terms_per_row(terms, d.ainst[a0:a0 + na])
+    # two passes: the quadratic forms, then the densities, whose loop reads few
+    # enough arrays for the compiler to vectorise it
+    q_form = np.empty(na + nv)
+    norm = np.empty(na + nv)          # the argument of ln in the normalisation
+    for j in range(na):
+        sx = _error(asx[j], t, j)
+        sy = _error(asy[j], t, j)
+        rho = arho[j]
+        zx = (ax[j] - mx[j]) / sx
+        zy = (ay[j] - my[j]) / sy
         one_r2 = 1.0 - rho * rho
-        q_form = (zx * zx - 2.0 * rho * zx * zy + zy * zy) / one_r2
-        log_norm = _LOG_2PI + math.log(sx * sy) + 0.5 * math.log(one_r2)
-        total += _mixture(inst, q_form, log_norm, 2.0, full, d)
+        q_form[j] = (zx * zx - 2.0 * rho * zx * zy + zy * zy) / one_r2
+        norm[j] = sx * sy * math.sqrt(one_r2)
+    point = np.empty(na + nv)
+    for j in range(na):
+        point[j] = _point_density(q_form[j], _LOG_2PI + log(norm[j]), 2.0, t, j)
     v0 = d.vel_first[s]
-    for k in range(nv):
-        r = v0 + k
-        inst = d.vinst[r]
-        sv = _errors(inst, d.vs[r], full, d)
-        z = (d.vv[r] - mv[k]) / sv
-        total += _mixture(inst, z * z, 0.5 * _LOG_2PI + math.log(sv), 1.0, full, d)
+    vv, vs = d.vv[v0:v0 + nv], d.vs[v0:v0 + nv]
+    t = _terms_per_row(terms, d.vinst[v0:v0 + nv])
+    for j in range(nv):
+        sv = _error(vs[j], t, j)
+        z = (vv[j] - mv[j]) / sv
+        q_form[na + j] = z * z
+        norm[na + j] = sv
+    for j in range(nv):
+        point[na + j] = _point_density(q_form[na + j], 0.5 * _LOG_2PI + log(norm[na + j]), 1.0,
+                                       t, j)
+    total = 0.0
+    for j in range(na + nv):
+        total += point[j]
     return total
 
 
@@ -208,19 +255,21 @@ def star_residuals(s, full, d, out):
     if not bound:
         out[:] = 1e6          # no bound orbit: a large, finite misfit for least squares
         return
+    terms = _instrument_terms(full, d)
     a0 = d.astro_first[s]
+    t = _terms_per_row(terms, d.ainst[a0:a0 + na])
     for k in range(na):
         r = a0 + k
-        inst = d.ainst[r]
-        zx = (d.ax[r] - mx[k]) / _errors(inst, d.asx[r], full, d)
-        zy = (d.ay[r] - my[k]) / _errors(inst, d.asy[r], full, d)
+        zx = (d.ax[r] - mx[k]) / _error(d.asx[r], t, k)
+        zy = (d.ay[r] - my[k]) / _error(d.asy[r], t, k)
         rho = d.arho[r]
         out[2 * k] = zx
         out[2 * k + 1] = (zy - rho * zx) / math.sqrt(1.0 - rho * rho)
     v0 = d.vel_first[s]
+    t = _terms_per_row(terms, d.vinst[v0:v0 + nv])
     for k in range(nv):
         r = v0 + k
-        out[2 * na + k] = (d.vv[r] - mv[k]) / _errors(d.vinst[r], d.vs[r], full, d)
+        out[2 * na + k] = (d.vv[r] - mv[k]) / _error(d.vs[r], t, k)
 
 
 # ---------------------------------------------------------------- Python face

@@ -15,6 +15,9 @@ division checks would stop the vectorisation.  tests/test_vectormath.py checks t
   cbrt(x)            x >= 0: exponent third from the bit pattern, then Halley
   expm1(x)           |x| < 700: Taylor series for |x| < ln2/2, else exp(x) - 1
                      with exp reduced by ln 2 and scaled through the exponent bits
+  exp(x)             the same reduction; below -708 it gives ~1e-308, not 0
+  log(x)             x > 0 normal: exponent from the bits, atanh series on the
+                     mantissa in [sqrt(1/2), sqrt(2))
 """
 
 import math
@@ -55,7 +58,11 @@ _LN2_LO = float(_LN2 - Fraction(_LN2_HI))
 _INV_LN2 = float(1 / _LN2)
 _HALF_LN2 = float(_LN2 / 2)
 # 1 / k of the nested series e^r - 1 = r (1 + r/2 (1 + r/3 (...))), to r^15
-_E_REVERSED = tuple(1.0 / k for k in range(15, 1, -1))   # (1023 - 1023 / 3) in the exponent field
+_E_REVERSED = tuple(1.0 / k for k in range(15, 1, -1))
+# 1 / (2k + 1) of log m = 2 atanh(t) = 2 (t + t^3/3 + ...), t = (m-1)/(m+1), to t^23
+_L_REVERSED = tuple(1.0 / k for k in range(23, 2, -2))
+_MANTISSA = (1 << 52) - 1
+_SQRT_TWO = math.sqrt(2.0)   # (1023 - 1023 / 3) in the exponent field
 
 
 @intrinsic
@@ -147,3 +154,30 @@ def expm1(x):
     scale = _bits_float((int(n) + 1023) << 52)
     large = scale * (1.0 + _expm1_small(r)) - 1.0
     return _expm1_small(x) if abs(x) < _HALF_LN2 else large
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def exp(x):
+    """e^x for x < 709 (x below -708 gives e^-708, not 0 or a subnormal)."""
+    x = x if x > -708.0 else -708.0
+    n = math.floor(x * _INV_LN2 + 0.5)
+    r = (x - n * _LN2_HI) - n * _LN2_LO
+    return _bits_float((int(n) + 1023) << 52) * (1.0 + _expm1_small(r))
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def log(x):
+    """Natural logarithm of a positive normal x (log 1 is exactly 0)."""
+    bits = _float_bits(x)
+    k = (bits >> 52) - 1023
+    m = _bits_float((bits & _MANTISSA) | (1023 << 52))      # in [1, 2)
+    big = m > _SQRT_TWO
+    m = 0.5 * m if big else m
+    k = k + 1 if big else k
+    t = (m - 1.0) / (m + 1.0)
+    t2 = t * t
+    p = 0.0
+    for f in _L_REVERSED:
+        p = f + t2 * p
+    log_m = 2.0 * t * (1.0 + t2 * p)
+    return (k * _LN2_HI + log_m) + k * _LN2_LO
