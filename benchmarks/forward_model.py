@@ -1,7 +1,7 @@
 """Speed of the forward model: nanoseconds per observation.
 
-Prints, side by side in one run, the compiled kernel (build_orbits +
-observe_stars: analytic 1PN orbit, Roemer delay, redshift on the velocity
+Prints, side by side in one run, the compiled kernel (observe_stars, one
+call from element rows: analytic 1PN orbit, Roemer delay, redshift on the velocity
 epochs) and the plain-numpy implementation of the same model
 (analyser.physics.reference), for 2, 10 and 30 stars with 50 astrometric
 and 15 velocity epochs each.  Usage:  python benchmarks/forward_model.py
@@ -13,7 +13,7 @@ import numpy as np
 
 from analyser.physics import constants as const
 from analyser.physics import reference
-from analyser.physics.observables import build_orbits, observe_stars
+from analyser.physics.observables import observe_stars
 
 N_ASTRO, N_VEL = 50, 15
 
@@ -55,8 +55,7 @@ def main():
         out = [np.empty(n_obs) for _ in range(4)]
 
         def compiled():
-            orbits = build_orbits(el, mu, eps)
-            observe_stars(orbits, first, t, need_v, mu, const.C_AU_YR, 1.0, mas_per_au, frame,
+            observe_stars(el, first, t, need_v, mu, eps, const.C_AU_YR, 1.0, mas_per_au, frame,
                           *out)
 
         star = np.repeat(np.arange(n_stars), N_ASTRO + N_VEL)

@@ -59,3 +59,25 @@ def test_true_anomaly_matches_half_angle_formula():
     big_e = np.linspace(-3.0, 3.0, 101)
     nu = true_anomaly(big_e, e)
     assert np.allclose(np.tan(nu / 2), math.sqrt((1 + e) / (1 - e)) * np.tan(big_e / 2))
+
+
+def test_coarse_solution_for_the_first_roemer_pass():
+    """kepler_unchecked(..., precise=False) stops after Halley's stage: it must
+    stay within 1e-8 rad of the full solution up to e = 0.999 (the Roemer
+    pass that uses it needs ~1e-7)."""
+    import numba
+    import numpy as np
+
+    from analyser.physics.kepler import kepler_unchecked
+
+    @numba.njit(error_model="numpy")
+    def worst(m, e):
+        out = 0.0
+        for k in range(m.size):
+            a = kepler_unchecked(m[k], e[k], False)
+            b = kepler_unchecked(m[k], e[k], True)
+            out = max(out, abs(a[0] - b[0]), abs(a[1] - b[1]), abs(a[2] - b[2]))
+        return out
+
+    m, e = np.meshgrid(np.linspace(-7.0, 7.0, 2001), np.linspace(0.0, 0.999, 400))
+    assert worst(m.ravel(), e.ravel()) < 1e-8

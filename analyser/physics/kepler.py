@@ -48,9 +48,10 @@ def sincos_small(x):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def kepler_unchecked(mean_anomaly, e):
+def kepler_unchecked(mean_anomaly, e, precise=True):
     """(E, sin E, cos E) for 0 <= e <= 0.999, not checked: branch-free, so that
-    loops over epochs vectorise (the caller checks e once per orbit)."""
+    loops over epochs vectorise (the caller checks e once per orbit).
+    precise=False stops after the correction's Halley stage (below 1e-10 rad)."""
     turns = math.floor((mean_anomaly + math.pi) / _TWO_PI)
     m_signed = mean_anomaly - turns * _TWO_PI
     m = abs(m_signed)
@@ -60,16 +61,20 @@ def kepler_unchecked(mean_anomaly, e):
     d = 3.0 * (1.0 - e) + alpha * e
     q = 2.0 * alpha * d * (1.0 - e) - m * m
     r = 3.0 * alpha * d * (d - 1.0 + e) * m + m * m * m
-    w = cbrt(abs(r) + math.sqrt(q * q * q + r * r))
+    w = cbrt(abs(r) + math.sqrt(q * q * q + r * r), precise)
     w *= w
     e1 = (2.0 * r * w / (w * w + w * q + q * q) + m) / d
     # one fifth-order correction (Markley's eqs. 21-25)
-    s1, c1 = sincos(e1)
+    s1, c1 = sincos(e1, precise)
     f0 = e1 - e * s1 - m
     f1 = 1.0 - e * c1
     f2 = e * s1
     f3 = e * c1
     d3 = -f0 / (f1 - 0.5 * f0 * f2 / f1)
+    if not precise:
+        sd, cd = d3, 1.0 - 0.5 * d3 * d3
+        return (sign * (e1 + d3) + turns * _TWO_PI, sign * (s1 * cd + c1 * sd),
+                c1 * cd - s1 * sd)
     d4 = -f0 / (f1 + 0.5 * d3 * f2 + d3 * d3 * f3 * _SIXTH)
     d5 = -f0 / (f1 + 0.5 * d4 * f2 + d4 * d4 * f3 * _SIXTH - d4 * d4 * d4 * f2 * _TWENTYFOURTH)
     sd, cd = sincos_small(d5)

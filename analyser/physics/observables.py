@@ -12,8 +12,9 @@ and "numerical-1pn" (integrator.py).
 Two levels of interface:
   * `predict_observables(globals, elements, epochs, dynamics)` for one star,
     with the parameter names used throughout the package and its results;
-  * `observe_stars` / `build_orbits`, compiled kernels for many stars and many
-    epochs in one call, used by the likelihood.
+  * `observe_stars`, the compiled kernel for many stars and many epochs in
+    one call (elements in, observables out); the likelihood uses its per-star
+    part `observe_orbit` on orbits from `orbits.orbit_constants`.
 """
 
 import math
@@ -80,37 +81,72 @@ def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, f
 
 
 @njit(cache=True, error_model="numpy", fastmath={"contract"})
-def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
-                  out_x, out_y, out_v, out_t_em):
-    """Observables of one star on a packed closed-form orbit at arrival epochs
-    t_obs; velocities only where need_v (NaN elsewhere).  The orbit must pass
-    orbits.orbit_is_bound.  Each loop over epochs is branch-free and vectorises."""
+def _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
+                         out_x, out_y, out_v, out_t_em):
     orbit = orbit_tuple(orbit)   # constants in registers: outputs cannot alias them
     n = t_obs.size
     for k in range(n):
         out_t_em[k] = t_obs[k]
     for _ in range(newton_passes(mu, c) if light_travel else 0):
         for k in range(n):
-            x, y, z, vx, vy, vz = orbit_state(orbit, out_t_em[k])
+            x, y, z, vx, vy, vz = orbit_state(orbit, out_t_em[k], False)
             out_t_em[k] -= roemer_step(out_t_em[k], t_obs[k], z, vz, c)
     for k in range(n):
         _final_step(k, orbit_state(orbit, out_t_em[k]), light_travel, t_obs, need_v, mu, c,
                     f_z, mas_per_au, frame, out_x, out_y, out_v, out_t_em)
 
 
+# Loops run over a multiple of this many epochs (8 doubles fill an AVX-512
+# register): the compiler's scalar remainder loop costs several times more.
+LANES = 8
+
+
 @njit(cache=True)
-def observe_stars(orbits, first, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
+                  out_x, out_y, out_v, out_t_em):
+    """Observables of one star on a packed closed-form orbit at arrival epochs
+    t_obs; velocities only where need_v (NaN elsewhere).  The orbit must pass
+    orbits.orbit_is_bound.
+
+    Every loop over epochs is branch-free and vectorises.  The Roemer passes
+    before the last use the coarse orbit state (light.py); epochs are padded
+    to a multiple of LANES by repeating the last one."""
+    n = t_obs.size
+    n_pad = -(-n // LANES) * LANES
+    if n_pad == n:
+        _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                             light_travel, out_x, out_y, out_v, out_t_em)
+        return
+    buf = np.empty((5, n_pad))
+    buf[0, :n] = t_obs
+    buf[0, n:] = t_obs[n - 1]
+    flags = np.zeros(n_pad, dtype=np.bool_)
+    flags[:n] = need_v
+    _observe_orbit_loops(orbit, buf[0], flags, mu, c, f_z, mas_per_au, frame, light_travel,
+                         buf[1], buf[2], buf[3], buf[4])
+    out_x[:] = buf[1, :n]
+    out_y[:] = buf[2, :n]
+    out_v[:] = buf[3, :n]
+    out_t_em[:] = buf[4, :n]
+
+
+@njit(cache=True)
+def observe_stars(elements, first, t_obs, need_v, mu, eps, c, f_z, mas_per_au, frame,
                   out_x, out_y, out_v, out_t_em, light_travel=True):
-    """Closed-form observables for many stars in one call.
+    """Closed-form observables for many stars in one call, from their element
+    rows (as for `build_orbits`; eps = f_SP / c^2, 0 for Kepler).
 
     Observations of star s occupy rows first[s]:first[s+1] of t_obs (arrival
     epochs, yr), need_v (whether a velocity is wanted) and the outputs.
     """
-    for s in range(orbits.shape[0]):
-        if not orbit_is_bound(orbits[s]):
-            raise ValueError("orbit constants do not describe a bound orbit")
+    orbit = np.empty(ORBIT_SIZE)
+    for s in range(elements.shape[0]):
+        row = elements[s]
+        orbit_constants(row[0], row[1], row[2], row[3], row[4], row[5], mu, eps, orbit)
+        if not orbit_is_bound(orbit):
+            raise ValueError("the elements do not give a bound orbit")
         lo, hi = first[s], first[s + 1]
-        observe_orbit(orbits[s], t_obs[lo:hi], need_v[lo:hi], mu, c, f_z, mas_per_au, frame,
+        observe_orbit(orbit, t_obs[lo:hi], need_v[lo:hi], mu, c, f_z, mas_per_au, frame,
                       light_travel, out_x[lo:hi], out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
 
 
@@ -210,9 +246,8 @@ def _evaluate(glob, elements, epochs, dynamics, light_travel=True,
         observe_integrated(nodes, par, t, need_v, mu, C_AU_YR, glob["f_z"], mas_per_au,
                            frame, *out, light_travel)
     else:
-        orbits = build_orbits(row[None, :], mu, eps)
-        observe_stars(orbits, np.array([0, t.size]), t, need_v, mu, C_AU_YR, glob["f_z"],
-                      mas_per_au, frame, *out, light_travel)
+        observe_stars(row[None, :], np.array([0, t.size]), t, need_v, mu, eps, C_AU_YR,
+                      glob["f_z"], mas_per_au, frame, *out, light_travel)
     return out
 
 

@@ -203,15 +203,17 @@ def orbit_tuple(orbit):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def orbit_state(orbit, t):
+def orbit_state(orbit, t, precise=True):
     """State (x, y, z, vx, vy, vz) at coordinate time t; AU, AU/yr.
 
     Branch-free, so that loops over epochs vectorise; the orbit (array or
-    `orbit_tuple`) must have passed `orbit_is_bound`."""
-    u, su, cu = kepler_unchecked(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T])
+    `orbit_tuple`) must have passed `orbit_is_bound`.  precise=False uses
+    the shorter series of kepler.py and vectormath.py (relative error
+    ~1e-8), enough for the first Roemer pass."""
+    u, su, cu = kepler_unchecked(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T], precise)
     beta = orbit[BETA_PHI]
-    phi = orbit[ONE_PLUS_K] * (u + 2.0 * atan2_right(beta * su, 1.0 - beta * cu))
-    sp, cp = sincos(phi)
+    phi = orbit[ONE_PLUS_K] * (u + 2.0 * atan2_right(beta * su, 1.0 - beta * cu, precise))
+    sp, cp = sincos(phi, precise)
     e_r = orbit[E_R]
     a_r = orbit[A_R]
     r = a_r * (1.0 - e_r * cu)

@@ -5,8 +5,10 @@ one element at a time.  The functions here are straight-line arithmetic with
 selects in place of branches and are inlined into their callers, so LLVM
 turns a loop over a star's epochs into vector instructions (8 doubles at a
 time with AVX-512).  Each is accurate to a few units in the last place over
-the range stated.  Callers compile with error_model="numpy": Python's
-division checks would stop the vectorisation.  tests/test_vectormath.py checks them against numpy and
+the range stated; with precise=False (a constant at the call site, so the
+compiler keeps one branch) the series are shorter, for the Roemer delay's
+first pass, where 1e-7 is plenty.  Callers compile with error_model="numpy":
+Python's division checks would stop the vectorisation.  tests/test_vectormath.py checks them against numpy and
 40-digit values.
 
   sincos(x)          |x| < 1e5 rad: Cody-Waite reduction by pi/2 with a
@@ -50,6 +52,8 @@ _S_REVERSED = tuple(1.0 / (k * (k + 1)) for k in range(18, 1, -2))
 _C_REVERSED = tuple(1.0 / (k * (k + 1)) for k in range(19, 0, -2))
 # odd reciprocals of the atan series z - z^3/3 + ... to z^25, innermost first
 _A_REVERSED = tuple(1.0 / k for k in range(25, 2, -2))
+# the shorter series of the coarse variants (precise=False)
+_S_COARSE, _C_COARSE, _A_COARSE = _S_REVERSED[-5:], _C_REVERSED[-6:], _A_REVERSED[-8:]
 
 _THIRD_OF_EXPONENT_BIAS = 682 << 52
 _LN2 = Fraction("0.693147180559945309417232121458176568075500134360255254120680009")
@@ -84,18 +88,28 @@ def _bits_float(typingctx, n):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def sincos(x):
-    """(sin x, cos x) for |x| < 1e5."""
-    j = math.floor(x * _TWO_OVER_PI + 0.5)
-    r = ((x - j * _P1) - j * _P2) - j * _P3
+def _sin_cos_series(r, sin_factors, cos_factors):
+    """sin r and cos r by their nested series (factors innermost first)."""
     r2 = r * r
     s = 1.0
-    for f in _S_REVERSED:
+    for f in sin_factors:
         s = 1.0 - r2 * f * s
-    s *= r
     c = 1.0
-    for f in _C_REVERSED:
+    for f in cos_factors:
         c = 1.0 - r2 * f * c
+    return r * s, c
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def sincos(x, precise=True):
+    """(sin x, cos x) for |x| < 1e5; precise=False stops the series at x^11
+    and x^12 (error below 1e-11)."""
+    j = math.floor(x * _TWO_OVER_PI + 0.5)
+    r = ((x - j * _P1) - j * _P2) - j * _P3
+    if precise:
+        s, c = _sin_cos_series(r, _S_REVERSED, _C_REVERSED)
+    else:
+        s, c = _sin_cos_series(r, _S_COARSE, _C_COARSE)
     q = int(j) & 3
     odd = (q & 1) == 1
     sin_x = c if odd else s
@@ -106,32 +120,36 @@ def sincos(x):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def _atan_small(z):
-    """atan z by its series, to rounding for |z| <= 0.2."""
+def _atan_series(z, coefficients):
+    """atan z by its series z - z^3/3 + ... (coefficients innermost first)."""
     z2 = z * z
     p = 0.0
-    for a in _A_REVERSED:
+    for a in coefficients:
         p = a - z2 * p
     return z * (1.0 - z2 * p)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def atan2_right(y, x):
-    """atan2(y, x) for x > 0 (the right half-plane, |result| < pi/2)."""
+def atan2_right(y, x, precise=True):
+    """atan2(y, x) for x > 0 (the right half-plane, |result| < pi/2);
+    precise=False halves the angle twice only (error below 2e-8)."""
     # tan(a/2) = tan a / (1 + sec a), three times: |angle| < pi/16, |tan| < 0.2
     t = y / (x + math.sqrt(x * x + y * y))
     t = t / (1.0 + math.sqrt(1.0 + t * t))
+    if not precise:
+        return 4.0 * _atan_series(t, _A_COARSE)
     t = t / (1.0 + math.sqrt(1.0 + t * t))
-    return 8.0 * _atan_small(t)
+    return 8.0 * _atan_series(t, _A_REVERSED)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def cbrt(x):
-    """Cube root of x >= 0."""
+def cbrt(x, precise=True):
+    """Cube root of x >= 0; precise=False takes one Halley step fewer
+    (relative error below 1e-8)."""
     # dividing the bit pattern by three divides the exponent by three: a first
     # guess within ~10%, which three cubically convergent Halley steps refine
     w = _bits_float(int(_float_bits(x) * (1.0 / 3.0)) + _THIRD_OF_EXPONENT_BIAS)
-    for _ in range(3):
+    for _ in range(3 if precise else 2):
         w3 = w * w * w
         w *= (w3 + 2.0 * x) / (2.0 * w3 + x)
     return w if x > 0.0 else 0.0
