@@ -34,7 +34,7 @@ from analyser.inference.evidence import importance_evidence           # noqa: E4
 from analyser.inference.likelihood import JointModel                  # noqa: E402
 from analyser.inference.nested import run_sampler                     # noqa: E402
 from analyser.inference.prefit import run_prefit                      # noqa: E402
-from analyser.inference.run import fit_variant, variant_seed          # noqa: E402
+from analyser.inference.run import fit_variant, pool_queue_size, variant_seed  # noqa: E402
 from analyser.simulate import simulate, write_campaign                # noqa: E402
 
 
@@ -136,7 +136,7 @@ def main():
     t0 = time.time()
     pool = multiprocessing.get_context("spawn").Pool(args.workers) if args.workers > 1 else None
     fit = fit_variant(campaign, "gr", work / "engine", progress=False, pool=pool,
-                      queue_size=args.workers if pool else None)
+                      queue_size=pool_queue_size(args.workers) if pool else None)
     if pool:
         pool.close()
     engine_s = time.time() - t0

@@ -258,7 +258,7 @@ fit_campaign(load_campaign(sys.argv[1]), sys.argv[2], variants=["gr"], resume=Tr
 
 
 def test_resume_after_a_kill_gives_the_same_posterior(tmp_path):
-    sc = scenario(stars=("TC-1",), **{"campaign.sampler": {"live_points": 400, "dlogz": 0.05,
+    sc = scenario(stars=("TC-1",), **{"campaign.sampler": {"live_points": 1200, "dlogz": 0.05,
                                                             "checkpoint_seconds": 1}})
     campaign, _ = make_campaign(tmp_path, sc)
     out = tmp_path / "killed"

@@ -19,10 +19,11 @@ from .fitting import make_campaign, scenario
 
 
 def test_quantiles_match_scipy():
-    for p in (1e-10, 1e-4, 0.02, 0.3, 0.5, 0.77, 0.99, 1 - 1e-9):
+    for p in (1e-12, 1e-4, 0.02, 0.3, 0.4999, 0.5, 0.5001, 0.77, 0.99, 1 - 1e-9):
         assert normal_quantile(p) == pytest.approx(stats.norm.ppf(p), rel=1e-9)
         for dof in (2, 3):
-            assert student_quantile(dof, p) == pytest.approx(stats.t.ppf(p, dof), rel=1e-6)
+            assert student_quantile(dof, p) == pytest.approx(stats.t.ppf(p, dof), rel=1e-11,
+                                                             abs=1e-15)
             t = stats.t.ppf(p, dof)
             assert student_log_density(dof, t) == pytest.approx(stats.t.logpdf(t, dof), rel=1e-10)
 

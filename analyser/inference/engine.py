@@ -112,10 +112,12 @@ def _try(b, u_try, sp, d, fixed_full, free_index, theta, full, terms, theta_t, f
 
 
 @njit(cache=True)
-def _block_factor(cov, lo, hi):
-    """Cholesky factor of the covariance sub-block [lo:hi, lo:hi], regularised."""
+def _block_factor(axes, lo, hi):
+    """Cholesky factor of the bound's covariance (axes axes^T) in the diagonal
+    block [lo:hi, lo:hi], regularised; only these blocks are ever needed."""
     n = hi - lo
-    sub = cov[lo:hi, lo:hi].copy()
+    rows = np.ascontiguousarray(axes[lo:hi])
+    sub = rows @ rows.T
     scale = 0.0
     for i in range(n):
         scale = max(scale, sub[i, i])
@@ -145,8 +147,7 @@ def evolve_point(u, loglstar, axes, scale, sweeps, star_slices, global_slices, s
     full_t = np.empty_like(full)
     terms_t = np.empty_like(terms)
     u_try = u.copy()
-    cov = axes @ axes.T
-    factors = [_block_factor(cov, sp.u_start[b], sp.u_start[b + 1]) for b in range(sp.n_blocks)]
+    factors = [_block_factor(axes, sp.u_start[b], sp.u_start[b + 1]) for b in range(sp.n_blocks)]
     n_expand = 0
     n_contract = 0
     n_accept = 0

@@ -171,36 +171,44 @@ def log_prior_fit_sum(kind, a, b, lo, hi, period, phi, first, last):
 
 # ---------------------------------------------------------------- Student t
 
+# 1 / (k (k + 1)) for k = 4, 6, ..., 28, innermost first: the nested series
+# x - sin x = x^3/6 (1 - x^2/20 (1 - x^2/42 (...))), to rounding for |x| <= pi
+_XMS_REVERSED = tuple(1.0 / (k * (k + 1)) for k in range(28, 3, -2))
+_SQRT3 = math.sqrt(3.0)
+
+
 @njit(cache=True)
-def _t3_cdf(t):
-    s = t / math.sqrt(3.0)
-    return 0.5 + (s / (1.0 + s * s) + math.atan(s)) / math.pi
+def _x_minus_sin(x):
+    """x - sin x without cancellation for small x."""
+    x2 = x * x
+    p = 1.0
+    for f in _XMS_REVERSED:
+        p = 1.0 - x2 * f * p
+    return x * x2 / 6.0 * p
 
 
 @njit(cache=True)
 def student_quantile(dof, p):
     """Quantile of the Student-t distribution with dof = 2 or 3 (0 < p < 1)."""
     p = min(max(p, 1e-300), 1.0 - 1e-16)
-    t = (2.0 * p - 1.0) / math.sqrt(2.0 * p * (1.0 - p))   # exact for dof = 2
     if dof == 2:
-        return t
-    # dof = 3: Newton on the closed-form CDF, safeguarded by bisection inside
-    # [0, t2]: the dof = 2 quantile lies beyond the dof = 3 one (heavier tails)
-    lo, hi = min(0.0, t), max(0.0, t)
-    for _ in range(100):
-        f = _t3_cdf(t) - p
-        if f > 0.0:
-            hi = t
-        else:
-            lo = t
-        dens = 6.0 * math.sqrt(3.0) / (math.pi * (3.0 + t * t) ** 2)
-        new = t - f / dens
-        if not (lo < new < hi):
-            new = 0.5 * (lo + hi)
-        if abs(new - t) < 1e-13 * (1.0 + abs(t)):
-            return new
-        t = new
-    return t
+        return (2.0 * p - 1.0) / math.sqrt(2.0 * p * (1.0 - p))   # exact
+    # dof = 3: with t = sqrt(3) cot(d/2) the CDF's upper tail 1 - p = q gives
+    # d - sin d = 2 pi q (a Kepler equation at e = 1), 0 < d <= pi; from
+    # d = (12 pi q)^(1/3), below the root, Halley's method converges in a few steps
+    q = p if p < 0.5 else 1.0 - p
+    y = 2.0 * math.pi * q
+    d = (6.0 * y) ** (1.0 / 3.0)
+    for _ in range(20):
+        g = _x_minus_sin(d) - y
+        half = math.sin(0.5 * d)
+        g1 = 2.0 * half * half                 # 1 - cos d
+        step = g / (g1 - 0.5 * g * math.sin(d) / g1)
+        d -= step
+        if abs(step) <= 1e-6 * d:        # Halley is cubic: what is left is ~1e-18
+            break
+    t = _SQRT3 * math.cos(0.5 * d) / math.sin(0.5 * d)
+    return t if p >= 0.5 else -t
 
 
 @njit(cache=True)

@@ -237,6 +237,17 @@ def _confine(cpus):
         os.sched_setaffinity(0, cpus)
 
 
+# proposals in flight per worker process: the pool's batches are synchronous,
+# so with one each a worker idles while the slower finishes; the points then
+# start from a contour a few iterations old, which costs ~queue / nlive
+QUEUE_PER_WORKER = 4
+
+
+def pool_queue_size(workers):
+    """dynesty's queue size for a pool of `workers` processes."""
+    return QUEUE_PER_WORKER * workers
+
+
 def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, engine=None,
                  scheduler=None):
     """Fit the variants (default: all of the campaign's); returns {name: VariantFit}."""
@@ -270,7 +281,8 @@ def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, eng
     try:
         for n in names:
             out[n] = fit_variant(campaign, n, work_dir, resume=resume, pool=pool,
-                                 queue_size=workers if pool else None, engine=engine)
+                                 queue_size=pool_queue_size(workers) if pool else None,
+                                 engine=engine)
     finally:
         if pool is not None:
             pool.close()
