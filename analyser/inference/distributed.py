@@ -11,6 +11,8 @@ batch system through dask-jobqueue (see docs/cluster.md).
 
 from pathlib import Path
 
+from .run import pool_queue_size
+
 
 class DaskPool:
     """A map-only pool over a distributed client; `size` sets dynesty's queue."""
@@ -44,7 +46,7 @@ def fit_on_cluster(campaign, work_dir, names, scheduler, resume=False, engine=No
     with Client(scheduler) as client:
         n_workers = max(1, sum(w.get("nthreads", 1) for w in
                                client.scheduler_info()["workers"].values()))
-        per_batch = max(1, n_workers // max(1, len(names)))
+        per_batch = pool_queue_size(max(1, n_workers // max(1, len(names))))
         futures = {n: client.submit(_variant_task, campaign, n, str(work_dir), resume, engine,
                                     per_batch, pure=False, key=f"variant-{n}")
                    for n in names}
