@@ -168,7 +168,7 @@ def _secular_terms(r_p, v_p, mu, eps, r_a_guess):
         dg = -2.0 * (c2 * e2 * (s - lam * s * s) + mu * e6 * (4.0 * lam * s - 1.0))
         step = g / dg
         s -= step
-        if abs(step) < 1e-15 * s:
+        if abs(step) < 1e-10 * s:      # quadratic: what is left is below 1e-16
             break
     r_a = 1.0 / s
     a = 0.5 * (r_a + r_p)
