@@ -36,7 +36,8 @@ def main():
     assert np.all(np.isfinite(out)), "the prefit's mode should have a finite likelihood"
     per_star = [best_time(lambda s=s: star_loglike(s, full, d), 0.2) for s in range(n_stars)]
     print(f"{args.campaign}: {n_stars} stars, {n_obs} observations")
-    print(f"joint ln L: {t_all * 1e3:.3f} ms per call, {t_all / n_obs * 1e9:.0f} ns per observation")
+    print(f"joint ln L: {t_all * 1e3:.3f} ms per call, "
+          f"{t_all / n_obs * 1e9:.0f} ns per observation")
     print(f"one star's term: {np.mean(per_star) * 1e6:.1f} us on average "
           f"({min(per_star) * 1e6:.1f} to {max(per_star) * 1e6:.1f})")
 

@@ -11,9 +11,10 @@ orbit (3e-7 yr, ten seconds, for 4e6 M_sun).  So a fixed number of full passes
 (`newton_passes`: one below ~1.3e7 M_sun, two above) brings every epoch
 within ROEMER_TOL_YR, and the final step is taken to first order from the
 last evaluated state.  The passes before the last need z only to ~1e-7 of
-itself (its error enters the last step, ~1e-9 yr), so they use the orbit
-state's coarse variant (orbits.orbit_state, precise=False).  A fixed count keeps the model a smooth function of
-the parameters and lets the loops over epochs vectorise.
+itself (its error enters the last step, below ~1e-8 yr), so they use the
+orbit state's coarse variant (orbits.orbit_state, precise=False).  A fixed
+count keeps the model a smooth function of the parameters and lets the
+loops over epochs vectorise.
 
 Redshift.  1 + z_tot = gamma (1 + v_z/c) (1 - 2 G M / (r c^2))^(-1/2)
 (special-relativistic Doppler times gravitational redshift).  The model

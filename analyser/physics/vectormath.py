@@ -8,8 +8,8 @@ time with AVX-512).  Each is accurate to a few units in the last place over
 the range stated; with precise=False (a constant at the call site, so the
 compiler keeps one branch) the series are shorter, for the Roemer delay's
 first pass, where 1e-7 is plenty.  Callers compile with error_model="numpy":
-Python's division checks would stop the vectorisation.  tests/test_vectormath.py checks them against numpy and
-40-digit values.
+Python's division checks would stop the vectorisation.  tests/test_vectormath.py
+checks them against numpy and 40-digit values.
 
   sincos(x)          |x| < 1e5 rad: Cody-Waite reduction by pi/2 with a
                      three-part constant, Taylor polynomials on |r| <= pi/4
