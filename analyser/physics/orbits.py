@@ -127,11 +127,12 @@ def orbit_constants(period, e, i, big_omega, omega, t_p, mu, eps, out):
 
 _PERIOD_NODES = 32
 _ANGLE_NODES = 16
-# cosines and |sines| of the midpoint nodes of both quadratures
-_U = (np.arange(_PERIOD_NODES) + 0.5) * 2.0 * math.pi / _PERIOD_NODES
-_V = (np.arange(_ANGLE_NODES) + 0.5) * 2.0 * math.pi / _ANGLE_NODES
-_COS_U, _SIN_U = np.cos(_U), np.abs(np.sin(_U))
-_COS_V, _SIN_V = np.cos(_V), np.abs(np.sin(_V))
+# cosines and sines of the midpoint nodes of both quadratures, first half only:
+# the integrands depend on cos and |sin|, so node j and node N-1-j agree
+_U = (np.arange(_PERIOD_NODES // 2) + 0.5) * 2.0 * math.pi / _PERIOD_NODES
+_V = (np.arange(_ANGLE_NODES // 2) + 0.5) * 2.0 * math.pi / _ANGLE_NODES
+_COS_U, _SIN_U = np.cos(_U), np.sin(_U)
+_COS_V, _SIN_V = np.cos(_V), np.sin(_V)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -175,23 +176,23 @@ def _secular_terms(r_p, v_p, mu, eps, r_a_guess):
     e = (r_a - r_p) / (r_a + r_p)
     # radial period: integrate dt/du with r = a (1 - e cos u)
     period = 0.0
-    for j in range(_PERIOD_NODES):
+    for j in range(_PERIOD_NODES // 2):
         s = 1.0 / (a * (1.0 - e * _COS_U[j]))
         g, e6, _ = _radial_terms(s, s_p, c2, mu, lam, a_p, b_p)
         period += a * e * _SIN_U[j] * math.sqrt(e6 / g)
-    period *= 2.0 * math.pi / _PERIOD_NODES
+    period *= 4.0 * math.pi / _PERIOD_NODES
     # apsidal angle: integrate dphi/dV with r = a (1 - e^2) / (1 + e cos V)
     angle = 0.0
     semi_latus = a * (1.0 - e * e)
     h_p = c * math.exp(-4.0 * lam * s_p)
-    for j in range(_ANGLE_NODES):
+    for j in range(_ANGLE_NODES // 2):
         den = 1.0 + e * _COS_V[j]
         s = den / semi_latus
         dr_dv = semi_latus * e * _SIN_V[j] / (den * den)
         g, e6, _ = _radial_terms(s, s_p, c2, mu, lam, a_p, b_p)
         h = h_p * (1.0 + expm1(-4.0 * lam * (s - s_p)))
         angle += h * s * s * dr_dv * math.sqrt(e6 / g)
-    angle *= 2.0 * math.pi / _ANGLE_NODES
+    angle *= 4.0 * math.pi / _ANGLE_NODES
     return period, angle / (2.0 * math.pi) - 1.0, a, e
 
 
