@@ -52,11 +52,11 @@ def main():
     for n_stars in (2, 10, 30):
         el, t, need_v, first = campaign(n_stars, rng)
         n_obs = t.size
-        out = [np.empty(n_obs) for _ in range(4)]
+        out = np.empty((4, n_obs))
 
         def compiled():
             observe_stars(el, first, t, need_v, mu, eps, const.C_AU_YR, 1.0, mas_per_au, frame,
-                          *out)
+                          out)
 
         star = np.repeat(np.arange(n_stars), N_ASTRO + N_VEL)
 

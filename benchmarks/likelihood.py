@@ -30,7 +30,7 @@ def main():
     full = model.full(prefit.theta)
     d = model.data
     n_stars = d.obs_first.size - 1
-    n_obs = int(d.obs_first[-1])   # epochs: an astrometric (x, y) pair or a velocity
+    n_obs = int(d.astro_first[-1] + d.vel_first[-1])   # an astrometric (x, y) pair or a velocity
     out = np.empty(n_stars)
     t_all = best_time(lambda: all_star_loglikes(full, d, out))
     assert np.all(np.isfinite(out)), "the prefit's mode should have a finite likelihood"

@@ -11,8 +11,8 @@ from scipy import integrate, stats
 from analyser.inference.likelihood import JointModel
 from analyser.inference.prefit import run_prefit
 from analyser.inference.priors import (GAUSSIAN, LOG_UNIFORM, UNIFORM, from_fit, log_density,
-                                       log_prior_fit, normal_quantile, student_log_density,
-                                       student_quantile, to_fit, transform)
+                                       log_prior_fit, normal_quantile, student_cdf,
+                                       student_log_density, student_quantile, to_fit, transform)
 from analyser.inference.proposal import block_log_ratio, build_space, cube_to_theta
 
 from .fitting import make_campaign, scenario
@@ -26,6 +26,7 @@ def test_quantiles_match_scipy():
                                                              abs=1e-15)
             t = stats.t.ppf(p, dof)
             assert student_log_density(dof, t) == pytest.approx(stats.t.logpdf(t, dof), rel=1e-10)
+            assert student_cdf(dof, t) == pytest.approx(p, rel=1e-9, abs=1e-15)
 
 
 @pytest.mark.parametrize("kind, a, b", [(UNIFORM, -2.0, 4.0), (LOG_UNIFORM, 1e6, 1e7),

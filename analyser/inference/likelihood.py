@@ -25,7 +25,8 @@ from numba import njit
 from ..physics.constants import C_AU_YR, GM_SUN
 from ..physics.dynamics import KIND_BY_NAME, NUMERICAL_1PN
 from ..physics.integrator import STEPS_PER_ORBIT
-from ..physics.observables import integrate_star, observe_integrated, observe_orbit
+from ..physics.observables import (integrate_star, observe_integrated, observe_orbit,
+                                   padded_size)
 from ..physics.orbits import MEAN_MOTION, ORBIT_SIZE, T_P, orbit_constants, orbit_is_bound
 from ..physics.vectormath import exp, log
 from .layout import N_GLOBAL, N_STAR, build_layout
@@ -37,7 +38,8 @@ class DataArrays(NamedTuple):
     dynamics: int
     t_ref: float
     star_offset: np.ndarray      # full-vector index of each star's first parameter
-    obs_first: np.ndarray        # per star: slice of obs_t (astrometry first, then velocities)
+    obs_first: np.ndarray        # per star: slice of obs_t: astrometry, velocities, then
+                                 # repeats of the last epoch up to a multiple of LANES
     astro_first: np.ndarray      # per star: slice of the astrometry rows
     vel_first: np.ndarray        # per star: slice of the velocity rows
     obs_t: np.ndarray
@@ -93,11 +95,8 @@ def star_predict(s, full, d, out_x, out_y, out_v):
     mas_per_au = 1000.0 / full[1]
     frame = np.array((full[2], full[3], full[4], full[5], full[6], d.t_ref))
     lo, hi = d.obs_first[s], d.obs_first[s + 1]
-    n = hi - lo
-    px = np.empty(n)
-    py = np.empty(n)
-    pv = np.empty(n)
-    pt = np.empty(n)
+    work = np.empty((4, hi - lo))
+    px, py, pv, pt = work[0], work[1], work[2], work[3]
     if d.dynamics == NUMERICAL_1PN:
         o = d.star_offset[s]
         row = np.array((full[o], full[o + 1], math.acos(max(-1.0, min(1.0, full[o + 2]))),
@@ -187,9 +186,8 @@ def _star_model(s, full, d):
     """(bound, n astrometric rows, n velocity rows, model x, y, v) of star s."""
     na = d.astro_first[s + 1] - d.astro_first[s]
     nv = d.vel_first[s + 1] - d.vel_first[s]
-    mx = np.empty(na)
-    my = np.empty(na)
-    mv = np.empty(nv)
+    model = np.empty((3, max(na, nv)))
+    mx, my, mv = model[0, :na], model[1, :na], model[2, :nv]
     bound = star_predict(s, full, d, mx, my, mv)
     return bound, na, nv, mx, my, mv
 
@@ -209,8 +207,9 @@ def star_loglike(s, full, d):
     t = _terms_per_row(terms, d.ainst[a0:a0 + na])
     # two passes: the quadratic forms, then the densities, whose loop reads few
     # enough arrays for the compiler to vectorise it
-    q_form = np.empty(na + nv)
-    norm = np.empty(na + nv)          # the argument of ln in the normalisation
+    scratch = np.empty((3, na + nv))
+    q_form = scratch[0]
+    norm = scratch[1]                 # the argument of ln in the normalisation
     for j in range(na):
         sx = _error(asx[j], t, j)
         sy = _error(asy[j], t, j)
@@ -220,7 +219,7 @@ def star_loglike(s, full, d):
         one_r2 = 1.0 - rho * rho
         q_form[j] = (zx * zx - 2.0 * rho * zx * zy + zy * zy) / one_r2
         norm[j] = sx * sy * math.sqrt(one_r2)
-    point = np.empty(na + nv)
+    point = scratch[2]
     for j in range(na):
         point[j] = _point_density(q_form[j], _LOG_2PI + log(norm[j]), 2.0, t, j)
     v0 = d.vel_first[s]
@@ -238,6 +237,14 @@ def star_loglike(s, full, d):
     for j in range(na + nv):
         total += point[j]
     return total
+
+
+@njit(cache=True)
+def star_share(s, d):
+    """Star s's fraction of all data rows (its term's cost in full evaluations)."""
+    n_all = d.astro_first[d.astro_first.size - 1] + d.vel_first[d.vel_first.size - 1]
+    n_s = (d.astro_first[s + 1] - d.astro_first[s]) + (d.vel_first[s + 1] - d.vel_first[s])
+    return n_s / max(n_all, 1)
 
 
 @njit(cache=True)
@@ -291,9 +298,11 @@ def build_data(campaign, layout):
     for s in range(n_star):
         ta = ast.epoch_yr[astro_first[s]:astro_first[s + 1]]
         tv = vel.epoch_yr[vel_first[s]:vel_first[s + 1]]
-        obs_t += [ta, tv]
-        need_v += [np.zeros(ta.size, bool), np.ones(tv.size, bool)]
-        obs_first.append(obs_first[-1] + ta.size + tv.size)
+        n = ta.size + tv.size
+        pad = np.full(padded_size(n) - n, tv[-1] if tv.size else ta[-1]) if n else np.empty(0)
+        obs_t += [ta, tv, pad]
+        need_v += [np.zeros(ta.size, bool), np.ones(tv.size, bool), np.zeros(pad.size, bool)]
+        obs_first.append(obs_first[-1] + n + pad.size)
 
     def index_of(suffix):
         out = np.full(len(inst_names), -1, dtype=np.int64)

@@ -37,6 +37,9 @@ from .proposal import build_space, cube_to_theta
 DEFAULT_SWEEPS = 1
 DEFAULT_STAR_SLICES = 3
 MIN_GLOBAL_SLICES = 3
+# Independent draws tried per block step from an ellipsoid around the live points
+# (engine.py); six cut ln Z's bias on a 4-star campaign from +0.23 to -0.06 nat.
+DEFAULT_JUMPS = 6
 
 
 class PriorTransform:
@@ -129,11 +132,10 @@ def run_sampler(model: JointModel, prefit, settings, checkpoint=None, resume=Fal
     global_slices = settings.slices or max(MIN_GLOBAL_SLICES,
                                            int(space.u_start[1] - space.u_start[0]) // 4)
     if engine == "blocked":
-        sample = BlockSliceSampler(model=(space, data, fixed, lay.free), sweeps=DEFAULT_SWEEPS,
-                                   star_slices=DEFAULT_STAR_SLICES, global_slices=global_slices)
-        bound = settings.bound
         walk = {"sweeps": DEFAULT_SWEEPS, "star_slices": DEFAULT_STAR_SLICES,
-                "global_slices": global_slices}
+                "global_slices": global_slices, "jumps": DEFAULT_JUMPS}
+        sample = BlockSliceSampler(model=(space, data, fixed, lay.free), **walk)
+        bound = settings.bound
     elif engine == "stock":
         sample, bound, walk = "rslice", "multi", {"slices": settings.slices or None}
     else:

@@ -94,9 +94,10 @@ def _star_data(model, s):
     d = model.data
     a = slice(d.astro_first[s], d.astro_first[s + 1])
     v = slice(d.vel_first[s], d.vel_first[s + 1])
-    return (d.obs_t[d.obs_first[s]:d.obs_first[s] + (a.stop - a.start)], d.ax[a], d.ay[a],
-            d.asx[a], d.asy[a], d.obs_t[d.obs_first[s] + (a.stop - a.start):d.obs_first[s + 1]],
-            d.vv[v], d.vs[v])
+    t_astro = d.obs_first[s] + (a.stop - a.start)     # velocity epochs follow the astrometry
+    t_vel = t_astro + (v.stop - v.start)
+    return (d.obs_t[d.obs_first[s]:t_astro], d.ax[a], d.ay[a], d.asx[a], d.asy[a],
+            d.obs_t[t_astro:t_vel], d.vv[v], d.vs[v])
 
 
 def _projected_fit(log_p, e, phase, data, t_ref):

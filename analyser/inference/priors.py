@@ -212,6 +212,15 @@ def student_quantile(dof, p):
 
 
 @njit(cache=True)
+def student_cdf(dof, t):
+    """CDF of the Student-t distribution with dof = 2 or 3 (closed forms)."""
+    if dof == 2:
+        return 0.5 + 0.5 * t / math.sqrt(2.0 + t * t)
+    x = t / _SQRT3
+    return 0.5 + (math.atan(x) + x / (1.0 + x * x)) / math.pi
+
+
+@njit(cache=True)
 def student_log_density(dof, t):
     if dof == 2:
         return -1.5 * math.log(2.0 + t * t)        # 1 / (2 + t^2)^(3/2)

@@ -101,6 +101,32 @@ def _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, li
 LANES = 8
 
 
+@njit(cache=True, inline="always")
+def padded_size(n):
+    """n rounded up to a multiple of LANES."""
+    return -(-n // LANES) * LANES
+
+
+@njit(cache=True)
+def _observe_padded(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
+                    work, flags, out_x, out_y, out_v, out_t_em):
+    """observe_orbit through scratch rows work[0:5, :n_pad] and flags[:n_pad]
+    (n_pad = padded_size(n)): epochs padded by repeating the last one."""
+    n = t_obs.size
+    n_pad = padded_size(n)
+    work[0, :n] = t_obs
+    work[0, n:n_pad] = t_obs[n - 1]
+    flags[:n] = need_v
+    flags[n:n_pad] = False
+    _observe_orbit_loops(orbit, work[0, :n_pad], flags[:n_pad], mu, c, f_z, mas_per_au, frame,
+                         light_travel, work[1, :n_pad], work[2, :n_pad], work[3, :n_pad],
+                         work[4, :n_pad])
+    out_x[:] = work[1, :n]
+    out_y[:] = work[2, :n]
+    out_v[:] = work[3, :n]
+    out_t_em[:] = work[4, :n]
+
+
 @njit(cache=True)
 def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
                   out_x, out_y, out_v, out_t_em):
@@ -109,45 +135,46 @@ def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_tra
     orbits.orbit_is_bound.
 
     Every loop over epochs is branch-free and vectorises.  The Roemer passes
-    before the last use the coarse orbit state (light.py); epochs are padded
-    to a multiple of LANES by repeating the last one."""
+    before the last use the coarse orbit state (light.py).  Epochs are padded
+    to a multiple of LANES by repeating the last one, in scratch space unless
+    t_obs already has such a size."""
     n = t_obs.size
-    n_pad = -(-n // LANES) * LANES
-    if n_pad == n:
+    if n == padded_size(n):
         _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
                              light_travel, out_x, out_y, out_v, out_t_em)
         return
-    buf = np.empty((5, n_pad))
-    buf[0, :n] = t_obs
-    buf[0, n:] = t_obs[n - 1]
-    flags = np.zeros(n_pad, dtype=np.bool_)
-    flags[:n] = need_v
-    _observe_orbit_loops(orbit, buf[0], flags, mu, c, f_z, mas_per_au, frame, light_travel,
-                         buf[1], buf[2], buf[3], buf[4])
-    out_x[:] = buf[1, :n]
-    out_y[:] = buf[2, :n]
-    out_v[:] = buf[3, :n]
-    out_t_em[:] = buf[4, :n]
+    _observe_padded(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
+                    np.empty((5, padded_size(n))), np.empty(padded_size(n), dtype=np.bool_),
+                    out_x, out_y, out_v, out_t_em)
 
 
 @njit(cache=True)
-def observe_stars(elements, first, t_obs, need_v, mu, eps, c, f_z, mas_per_au, frame,
-                  out_x, out_y, out_v, out_t_em, light_travel=True):
+def observe_stars(elements, first, t_obs, need_v, mu, eps, c, f_z, mas_per_au, frame, out,
+                  light_travel=True):
     """Closed-form observables for many stars in one call, from their element
     rows (as for `build_orbits`; eps = f_SP / c^2, 0 for Kepler).
 
-    Observations of star s occupy rows first[s]:first[s+1] of t_obs (arrival
-    epochs, yr), need_v (whether a velocity is wanted) and the outputs.
+    Observations of star s occupy columns first[s]:first[s+1] of t_obs
+    (arrival epochs, yr), need_v (whether a velocity is wanted) and `out`,
+    whose rows receive x (mas), y (mas), v (km/s) and the emission epoch (yr).
+    One scratch space serves all stars.
     """
     orbit = np.empty(ORBIT_SIZE)
+    n_max = 0
+    for s in range(elements.shape[0]):
+        n_max = max(n_max, first[s + 1] - first[s])
+    work = np.empty((5, padded_size(n_max)))
+    flags = np.empty(padded_size(n_max), dtype=np.bool_)
     for s in range(elements.shape[0]):
         row = elements[s]
         orbit_constants(row[0], row[1], row[2], row[3], row[4], row[5], mu, eps, orbit)
         if not orbit_is_bound(orbit):
             raise ValueError("the elements do not give a bound orbit")
         lo, hi = first[s], first[s + 1]
-        observe_orbit(orbit, t_obs[lo:hi], need_v[lo:hi], mu, c, f_z, mas_per_au, frame,
-                      light_travel, out_x[lo:hi], out_y[lo:hi], out_v[lo:hi], out_t_em[lo:hi])
+        if hi > lo:
+            _observe_padded(orbit, t_obs[lo:hi], need_v[lo:hi], mu, c, f_z, mas_per_au, frame,
+                            light_travel, work, flags, out[0, lo:hi], out[1, lo:hi],
+                            out[2, lo:hi], out[3, lo:hi])
 
 
 @njit(cache=True)
@@ -240,15 +267,15 @@ def _evaluate(glob, elements, epochs, dynamics, light_travel=True,
     row = element_row(elements)
     frame = frame_row(glob)
     need_v = np.ones(t.size, dtype=np.bool_)
-    out = [np.empty(t.size) for _ in range(4)]
+    out = np.empty((4, t.size))
     if dynamics == "numerical-1pn":
         nodes, par = integrate_star(row, mu, eps, C_AU_YR, t.min(), t.max(), steps_per_orbit)
         observe_integrated(nodes, par, t, need_v, mu, C_AU_YR, glob["f_z"], mas_per_au,
                            frame, *out, light_travel)
     else:
         observe_stars(row[None, :], np.array([0, t.size]), t, need_v, mu, eps, C_AU_YR,
-                      glob["f_z"], mas_per_au, frame, *out, light_travel)
-    return out
+                      glob["f_z"], mas_per_au, frame, out, light_travel)
+    return list(out)
 
 
 def predict_observables(globals, elements, epochs, dynamics="analytic-1pn", light_travel=True):
