@@ -141,11 +141,10 @@ def jump_blocks(sp):
 
 
 @njit(cache=True)
-def jump_coordinates(sp, u, z, lo, hi):
+def jump_coordinates(sp, can, u, z, lo, hi):
     """z[lo:hi] from the cube point u: the Student-t quantile in jumping
-    blocks, where the likelihood contour is close to an ellipsoid (the cube
-    squeezes it towards a box), u itself elsewhere."""
-    can = jump_blocks(sp)
+    blocks (can = jump_blocks(sp)), where the likelihood contour is close to
+    an ellipsoid (the cube squeezes it towards a box), u itself elsewhere."""
     for b in range(sp.n_blocks):
         for k in range(max(lo, sp.u_start[b]), min(hi, sp.u_start[b + 1])):
             z[k] = student_quantile(sp.dof, u[k]) if can[b] else u[k]
@@ -153,17 +152,17 @@ def jump_coordinates(sp, u, z, lo, hi):
 
 @njit(cache=True)
 def jump_coordinates_many(sp, points):
+    can = jump_blocks(sp)
     out = np.empty_like(points)
     for i in range(points.shape[0]):
-        jump_coordinates(sp, points[i], out[i], 0, points.shape[1])
+        jump_coordinates(sp, can, points[i], out[i], 0, points.shape[1])
     return out
 
 
 @njit(cache=True)
-def _jump_factors(sp, precision):
+def _jump_factors(sp, can, precision):
     """Per block: Cholesky factor of the ellipsoid's precision in its diagonal
     block, or an empty array where the block cannot jump."""
-    can = jump_blocks(sp)
     out = []
     for b in range(sp.n_blocks):
         u0, u1 = sp.u_start[b], sp.u_start[b + 1]
@@ -232,6 +231,15 @@ def _jump(b, sp, z, center, p_diff, chol, z_try, u_try):
 
 
 @njit(cache=True)
+def _take(u, theta, full, terms, u_t, theta_t, full_t, terms_t):
+    """Move the walk to the tried point (the *_t arrays)."""
+    u[:] = u_t
+    theta[:] = theta_t
+    full[:] = full_t
+    terms[:] = terms_t
+
+
+@njit(cache=True)
 def evolve_point(u, loglstar, axes, center, precision, scale, sweeps, star_slices,
                  global_slices, jumps, seed, sp, d, fixed_full, free_index):
     """A new point with ln L' > loglstar from u, by block moves.
@@ -260,13 +268,15 @@ def evolve_point(u, loglstar, axes, center, precision, scale, sweeps, star_slice
     terms_t = np.empty_like(terms)
     u_try = u.copy()
     factors = [_block_factor(axes, sp.u_start[b], sp.u_start[b + 1]) for b in range(sp.n_blocks)]
-    jump_factors = _jump_factors(sp, precision)
-    z = np.empty(u.size)
-    jump_coordinates(sp, u, z, 0, u.size)
-    z_try = z.copy()
+    can_jump = jump_blocks(sp)
+    jump_factors = _jump_factors(sp, can_jump, precision)
+    jumping = precision.shape[0] > 0
+    z = np.empty(u.size)            # jump coordinates, kept only while jumping
     p_diff = np.zeros(u.size)
-    if precision.shape[0] > 0:
+    if jumping:
+        jump_coordinates(sp, can_jump, u, z, 0, u.size)
         _add_precision_times(precision, z - center, 0, p_diff)
+    z_try = z.copy()
     n_expand = 0
     n_contract = 0
     n_accept = 0
@@ -293,10 +303,7 @@ def evolve_point(u, loglstar, axes, center, precision, scale, sweeps, star_slice
                                 theta_t, full_t, terms_t)
                 cost += c
                 if value > loglstar:
-                    u[:] = u_try
-                    theta[:] = theta_t
-                    full[:] = full_t
-                    terms[:] = terms_t
+                    _take(u, theta, full, terms, u_try, theta_t, full_t, terms_t)
                     total = value
                     n_jump_accept += 1
                     break
@@ -331,10 +338,7 @@ def evolve_point(u, loglstar, axes, center, precision, scale, sweeps, star_slice
                                     theta_t, full_t, terms_t)
                     cost += c
                     if value > loglstar:
-                        u[:] = u_try
-                        theta[:] = theta_t
-                        full[:] = full_t
-                        terms[:] = terms_t
+                        _take(u, theta, full, terms, u_try, theta_t, full_t, terms_t)
                         total = value
                         n_accept += 1
                         break
@@ -343,8 +347,8 @@ def evolve_point(u, loglstar, axes, center, precision, scale, sweeps, star_slice
                         left = t
                     else:
                         right = t
-            jump_coordinates(sp, u, z, u0, u1)
-            if precision.shape[0] > 0:
+            if jumping:
+                jump_coordinates(sp, can_jump, u, z, u0, u1)
                 _add_precision_times(precision, z[u0:u1] - z_block, u0, p_diff)
     return u, theta, total, cost, n_expand, n_contract, n_accept, n_jump_tries, n_jump_accept
 
