@@ -34,7 +34,7 @@ def _load(path):
 def _fit(args):
     import time
     from .inference.run import fit_campaign
-    from .results.bundle import write_bundle
+    from .results.bundle import summariser, write_bundle
     started = time.time()
     campaign = _load(args.campaign)
     if campaign is None:
@@ -46,7 +46,8 @@ def _fit(args):
                   f"{', '.join(v.name for v in campaign.variants)})", file=sys.stderr)
             return EXIT_INVALID_INPUT
     fits = fit_campaign(campaign, args.out, variants=variants, workers=args.workers,
-                        resume=args.resume, engine=args.engine, scheduler=args.scheduler)
+                        resume=args.resume, engine=args.engine, scheduler=args.scheduler,
+                        finish=summariser(campaign, args.out))
     doc = write_bundle(args.out, campaign, fits, " ".join(["analyser"] + sys.argv[1:]), started)
     _print_fit_summary(doc)
     return EXIT_OK

@@ -14,7 +14,7 @@ import sys
 import time
 from pathlib import Path
 
-from .results.bundle import read_bundle, write_atomic, write_bundle
+from .results.bundle import read_bundle, summariser, write_atomic, write_bundle
 from .results.compare import compare_bundles
 from .results.gates import evaluate_gates, junit_xml
 
@@ -80,7 +80,8 @@ def run_season(campaign, out_dir, baseline=None, workers=1, junit=None, schedule
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     resume = _resume_allowed(out, campaign)
-    fits = fit_campaign(campaign, out, workers=workers, resume=resume, scheduler=scheduler)
+    fits = fit_campaign(campaign, out, workers=workers, resume=resume, scheduler=scheduler,
+                        finish=summariser(campaign, out))
     doc = write_bundle(out, campaign, fits, command_line, started)
     comparison = None
     if baseline:

@@ -2,6 +2,7 @@
 injection and recovery, model comparison, mirror modes, resume, a deliberately
 offset proposal, and agreement of the block engine with stock dynesty."""
 
+import json
 import math
 import os
 import signal
@@ -20,7 +21,7 @@ from analyser.inference.nested import posterior_samples, run_sampler
 from analyser.inference.prefit import run_prefit
 from analyser.inference.run import fit_campaign, run_warnings
 from analyser.physics import predict_observables
-from analyser.results.bundle import write_bundle
+from analyser.results.bundle import summariser, variant_results, write_bundle
 
 from .fitting import make_campaign, scenario
 
@@ -104,9 +105,20 @@ def relativistic_fit(tmp_path_factory):
     """Three stars with strong relativistic signals, GR and Newtonian variants."""
     folder = tmp_path_factory.mktemp("gr")
     campaign, truth = make_campaign(folder, scenario(stars=("TC-1", "TC-2", "TC-3")))
-    fits = fit_campaign(campaign, folder / "out", variants=["newtonian", "gr"], workers=2)
+    fits = fit_campaign(campaign, folder / "out", variants=["newtonian", "gr"], workers=2,
+                        finish=summariser(campaign, folder / "out"))
     doc = write_bundle(folder / "out", campaign, fits, "test", time.time())
     return campaign, truth, fits, doc
+
+
+def test_summaries_made_in_the_workers_equal_those_made_afterwards(relativistic_fit,
+                                                                    tmp_path):
+    campaign, _, fits, _ = relativistic_fit
+    for name, fit in fits.items():
+        assert fit.summary is not None, name
+        again = variant_results(campaign, fit, tmp_path)
+        assert json.dumps(again, default=str, sort_keys=True) == \
+            json.dumps(fit.summary, default=str, sort_keys=True), name
 
 
 def test_injection_recovery_three_stars(relativistic_fit):

@@ -11,7 +11,7 @@ batch system through dask-jobqueue (see docs/cluster.md).
 
 from pathlib import Path
 
-from .run import pool_queue_size
+from .run import finished, pool_queue_size
 
 
 class DaskPool:
@@ -26,20 +26,23 @@ class DaskPool:
         return self.client.gather(futures)
 
 
-def _variant_task(campaign, variant, work_dir, resume, engine, proposals_per_batch):
+def _variant_task(campaign, variant, work_dir, resume, engine, proposals_per_batch, finish):
     from distributed import worker_client
     from .run import fit_variant
     with worker_client() as client:
         pool = DaskPool(client, proposals_per_batch)
-        return fit_variant(campaign, variant, work_dir, resume=resume, pool=pool,
-                           queue_size=pool.size, progress=True, engine=engine)
+        fit = fit_variant(campaign, variant, work_dir, resume=resume, pool=pool,
+                          queue_size=pool.size, progress=True, engine=engine)
+    return finished(fit, finish)
 
 
-def fit_on_cluster(campaign, work_dir, names, scheduler, resume=False, engine=None):
+def fit_on_cluster(campaign, work_dir, names, scheduler, resume=False, engine=None,
+                   finish=None):
     """Fit variants on the cluster at `scheduler`; returns {name: VariantFit}.
 
-    The work folder (checkpoints) must be visible to the workers, as on a
-    shared file system; the results come back to the caller.
+    The work folder (checkpoints, and the files `finish` writes) must be
+    visible to the workers, as on a shared file system; the results come
+    back to the caller.
     """
     from distributed import Client
     Path(work_dir).mkdir(parents=True, exist_ok=True)
@@ -48,6 +51,6 @@ def fit_on_cluster(campaign, work_dir, names, scheduler, resume=False, engine=No
                                client.scheduler_info()["workers"].values()))
         per_batch = pool_queue_size(max(1, n_workers // max(1, len(names))))
         futures = {n: client.submit(_variant_task, campaign, n, str(work_dir), resume, engine,
-                                    per_batch, pure=False, key=f"variant-{n}")
+                                    per_batch, finish, pure=False, key=f"variant-{n}")
                    for n in names}
         return {n: futures[n].result() for n in names}

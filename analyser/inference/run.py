@@ -64,6 +64,7 @@ class VariantFit:
     importance: dict
     raw: dict                    # dynesty's arrays, for re-analysis
     warnings: list = field(default_factory=list)
+    summary: dict = None         # `finish(fit)` where the fit ran, if asked for
 
 
 def variant_seed(seed, variant):
@@ -227,9 +228,17 @@ def fit_variant(campaign, variant, work_dir, resume=False, pool=None, queue_size
         raw=raw, warnings=warnings)
 
 
+def finished(fit, finish):
+    """The fit with its summary made by `finish` (None: as it is)."""
+    if finish is not None:
+        fit.summary = finish(fit)
+    return fit
+
+
 def _fit_in_subprocess(args):
-    campaign, variant, work_dir, resume, engine = args
-    return fit_variant(campaign, variant, work_dir, resume=resume, progress=True, engine=engine)
+    campaign, variant, work_dir, resume, engine, finish = args
+    return finished(fit_variant(campaign, variant, work_dir, resume=resume, progress=True,
+                                engine=engine), finish)
 
 
 def _confine(cpus):
@@ -249,14 +258,19 @@ def pool_queue_size(workers):
 
 
 def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, engine=None,
-                 scheduler=None):
-    """Fit the variants (default: all of the campaign's); returns {name: VariantFit}."""
+                 scheduler=None, finish=None):
+    """Fit the variants (default: all of the campaign's); returns {name: VariantFit}.
+
+    `finish` (picklable, fit -> dict) runs on each fit where it was made, as
+    soon as it is done, so that summarising one variant overlaps the others'
+    sampling; its result is the fit's `summary`."""
     names = list(variants or [v.name for v in campaign.variants])
     for name in names:
         campaign.variant(name)           # fails early on an unknown name
     if scheduler:
         from .distributed import fit_on_cluster
-        return fit_on_cluster(campaign, work_dir, names, scheduler, resume=resume, engine=engine)
+        return fit_on_cluster(campaign, work_dir, names, scheduler, resume=resume, engine=engine,
+                              finish=finish)
     out = {}
     if workers > 1 and len(names) > 1:
         processes, cpus = min(workers, len(names)), None
@@ -269,7 +283,8 @@ def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, eng
             cpus = available[:workers] if len(available) > workers else None
         with ProcessPoolExecutor(max_workers=processes, initializer=_confine,
                                  initargs=(cpus,)) as ex:
-            jobs = {n: ex.submit(_fit_in_subprocess, (campaign, n, work_dir, resume, engine))
+            jobs = {n: ex.submit(_fit_in_subprocess,
+                                 (campaign, n, work_dir, resume, engine, finish))
                     for n in names}
             for n in names:
                 out[n] = jobs[n].result()
@@ -280,9 +295,9 @@ def fit_campaign(campaign, work_dir, variants=None, workers=1, resume=False, eng
         pool = multiprocessing.get_context("spawn").Pool(workers)
     try:
         for n in names:
-            out[n] = fit_variant(campaign, n, work_dir, resume=resume, pool=pool,
-                                 queue_size=pool_queue_size(workers) if pool else None,
-                                 engine=engine)
+            out[n] = finished(fit_variant(campaign, n, work_dir, resume=resume, pool=pool,
+                                          queue_size=pool_queue_size(workers) if pool else None,
+                                          engine=engine), finish)
     finally:
         if pool is not None:
             pool.close()

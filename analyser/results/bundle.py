@@ -19,6 +19,7 @@ import platform
 import sys
 import time
 from datetime import datetime, timezone
+from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -338,11 +339,19 @@ def model_comparison(variants, reference):
                      "2-6 positive, 6-10 strong, > 10 very strong"}
 
 
+def summariser(campaign, out_dir):
+    """`finish` for fit_campaign: each variant's results entry and files,
+    made where the variant was fitted."""
+    return partial(variant_results, campaign, out_dir=Path(out_dir))
+
+
 def write_bundle(out_dir, campaign, fits, command_line, started):
-    """Write results.json (and the samples/raw files) for fitted variants."""
+    """Write results.json (and the samples/raw files) for fitted variants;
+    a fit's entry is made here unless `summariser` already made it."""
     out = Path(out_dir)
     write_data_tables(out, campaign)
-    variants = {name: variant_results(campaign, fit, out) for name, fit in fits.items()}
+    variants = {name: fit.summary if fit.summary is not None
+                else variant_results(campaign, fit, out) for name, fit in fits.items()}
     reference = campaign.reference_variant if campaign.reference_variant in variants \
         else next(iter(variants))
     warnings = [f"{name}: {w}" for name, v in variants.items() for w in v["warnings"]]
