@@ -333,7 +333,7 @@ def joint_to_blocks(layout, cov):
 
 
 # Share of the previous proposal's covariance added when a posterior reshapes
-# it (a floor for directions a short first pass saw too little of).  None: on
+# it (a floor for directions a short first pass saw too little of).  Zero: on
 # the demo a share of 1 made the proposal ~1.6x wider than the posterior
 # followed by `widen`, H ~30 instead of ~16 nats and ~1.5x the calls, with no
 # gain in accuracy on a 4-star campaign; the far-tail check and rerun
