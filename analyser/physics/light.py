@@ -10,9 +10,10 @@ error it leaves is f'' delta^2 / (2 f') with f'' = a_z / c, and since
 orbit (3e-7 yr, ten seconds, for 4e6 M_sun).  So a fixed number of full passes
 (`newton_passes`: one below ~1.3e7 M_sun, two above) brings every epoch
 within ROEMER_TOL_YR, and the final step is taken to first order from the
-last evaluated state.  The passes before the last need z only to ~1e-7 of
-itself (its error enters the last step, below ~1e-8 yr), so they use the
-orbit state's coarse variant (orbits.orbit_state, precise=False).  A fixed
+last evaluated state.  Kepler's equation is solved once, at the arrival
+epoch; the states at the trial emission epochs are shifted from that
+solution (orbits.earlier_anomalies), which is cheaper than a fresh solve and
+exact to rounding, the eccentric anomaly moving by less than ~v/c.  A fixed
 count keeps the model a smooth function of the parameters and lets the
 loops over epochs vectorise.
 

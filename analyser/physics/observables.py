@@ -28,8 +28,8 @@ from .elements import ELEMENT_KEYS, semi_major_axis_au
 from .integrator import STEPS_PER_ORBIT, integrate_nodes, nodes_state
 from .kepler import E_MAX
 from .light import first_order_shift, line_of_sight_velocity, newton_passes, roemer_step
-from .orbits import (MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, orbit_constants, orbit_is_bound,
-                     orbit_state, orbit_tuple)
+from .orbits import (MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, anomaly_state, earlier_anomalies,
+                     orbit_anomalies, orbit_constants, orbit_is_bound, orbit_state, orbit_tuple)
 
 DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
 GLOBAL_KEYS = ("mass_msun", "distance_pc", "x0_mas", "y0_mas", "vx0_mas_yr",
@@ -80,20 +80,45 @@ def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, f
     out_v[k] = v if need_v[k] else np.nan
 
 
+@njit(cache=True, inline="always", error_model="numpy")
+def _emission_state(orbit, t, c, passes):
+    """State at the emission time of light arriving at t, and that time, after
+    `passes` Newton steps on the Roemer delay.  One Kepler solve at t; the
+    states at the trial emission times are shifted from it (light.py)."""
+    su0, cu0, sp0, cp0 = orbit_anomalies(orbit, t)
+    state = anomaly_state(orbit, su0, cu0, sp0, cp0)
+    delay = 0.0
+    for _ in range(passes):
+        delay += roemer_step(t - delay, t, state[2], state[5], c)
+        su, cu, sp, cp = earlier_anomalies(orbit, su0, cu0, sp0, cp0, delay)
+        state = anomaly_state(orbit, su, cu, sp, cp)
+    return state, t - delay
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _observe_loop(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, passes,
+                  out_x, out_y, out_v, out_t_em):
+    for k in range(t_obs.size):
+        state, out_t_em[k] = _emission_state(orbit, t_obs[k], c, passes)
+        _final_step(k, state, passes > 0, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
+                    out_x, out_y, out_v, out_t_em)
+
+
 @njit(cache=True, error_model="numpy", fastmath={"contract"})
 def _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_travel,
                          out_x, out_y, out_v, out_t_em):
     orbit = orbit_tuple(orbit)   # constants in registers: outputs cannot alias them
-    n = t_obs.size
-    for k in range(n):
-        out_t_em[k] = t_obs[k]
-    for _ in range(newton_passes(mu, c) if light_travel else 0):
-        for k in range(n):
-            x, y, z, vx, vy, vz = orbit_state(orbit, out_t_em[k], False)
-            out_t_em[k] -= roemer_step(out_t_em[k], t_obs[k], z, vz, c)
-    for k in range(n):
-        _final_step(k, orbit_state(orbit, out_t_em[k]), light_travel, t_obs, need_v, mu, c,
-                    f_z, mas_per_au, frame, out_x, out_y, out_v, out_t_em)
+    passes = newton_passes(mu, c) if light_travel else 0
+    # the pass count is a literal in each loop, so that each unrolls and vectorises
+    if passes == 1:
+        _observe_loop(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, 1,
+                      out_x, out_y, out_v, out_t_em)
+    elif passes == 2:
+        _observe_loop(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, 2,
+                      out_x, out_y, out_v, out_t_em)
+    else:
+        _observe_loop(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, 0,
+                      out_x, out_y, out_v, out_t_em)
 
 
 # Loops run over a multiple of this many epochs (8 doubles fill an AVX-512
@@ -134,8 +159,7 @@ def observe_orbit(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, light_tra
     t_obs; velocities only where need_v (NaN elsewhere).  The orbit must pass
     orbits.orbit_is_bound.
 
-    Every loop over epochs is branch-free and vectorises.  The Roemer passes
-    before the last use the coarse orbit state (light.py).  Epochs are padded
+    Every loop over epochs is branch-free and vectorises.  Epochs are padded
     to a multiple of LANES by repeating the last one, in scratch space unless
     t_obs already has such a size."""
     n = t_obs.size

@@ -55,7 +55,7 @@ from numba import njit
 from .constants import C_AU_YR, GM_SUN
 from .elements import orientation
 from .kepler import kepler_unchecked
-from .vectormath import atan2_right, expm1, sincos
+from .vectormath import atan2_right, atan_small, expm1, sincos, sincos_small
 
 # Layout of the packed orbit array.
 T_P, MEAN_MOTION, E_T, A_R, E_R, ONE_PLUS_K, BETA_PHI, ROOT_PHI = range(8)
@@ -204,17 +204,61 @@ def orbit_tuple(orbit):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def orbit_state(orbit, t, precise=True):
-    """State (x, y, z, vx, vy, vz) at coordinate time t; AU, AU/yr.
+def orbit_anomalies(orbit, t):
+    """(sin u, cos u, sin phi, cos phi) at coordinate time t: the eccentric
+    anomaly u and the orbital-plane angle phi from the periapsis direction.
 
     Branch-free, so that loops over epochs vectorise; the orbit (array or
-    `orbit_tuple`) must have passed `orbit_is_bound`.  precise=False uses
-    the shorter series of kepler.py and vectormath.py (relative error
-    ~1e-8), enough for the first Roemer pass."""
-    u, su, cu = kepler_unchecked(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T], precise)
+    `orbit_tuple`) must have passed `orbit_is_bound`."""
+    u, su, cu = kepler_unchecked(orbit[MEAN_MOTION] * (t - orbit[T_P]), orbit[E_T])
     beta = orbit[BETA_PHI]
-    phi = orbit[ONE_PLUS_K] * (u + 2.0 * atan2_right(beta * su, 1.0 - beta * cu, precise))
-    sp, cp = sincos(phi, precise)
+    phi = orbit[ONE_PLUS_K] * (u + 2.0 * atan2_right(beta * su, 1.0 - beta * cu))
+    sp, cp = sincos(phi)
+    return su, cu, sp, cp
+
+
+# Newton steps on Kepler's equation in `earlier_anomalies`, after a start
+# exact to second order in du
+_SHIFT_NEWTON_STEPS = 2
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def earlier_anomalies(orbit, su0, cu0, sp0, cp0, delay):
+    """The anomalies of `orbit_anomalies` a time `delay` earlier, from those
+    at the later time, with no further Kepler solve or range reduction.
+
+    Meant for the Roemer delay, which moves u and phi by less than ~v/c
+    (delay <= r/c, du/dt = n a/r): the small-argument series of vectormath
+    are exact to rounding up to v/c ~ 0.2, far beyond the 1PN regime.
+    du solves du - e (sin(u0 + du) - sin u0) = -n delay by Newton's method
+    from the second-order solution -h/D - e sin u0 h^2 / (2 D^3)
+    (h = n delay, D = 1 - e cos u0); the true anomaly moves by du plus one
+    atan of a small argument, and phi's sine and cosine are rotated."""
+    e = orbit[E_T]
+    h = orbit[MEAN_MOTION] * delay
+    inv_d = 1.0 / (1.0 - e * cu0)
+    du = -h * inv_d
+    du -= 0.5 * e * su0 * inv_d * du * du
+    for _ in range(_SHIFT_NEWTON_STEPS):
+        sd, cd = sincos_small(du)
+        su = su0 * cd + cu0 * sd
+        cu = cu0 * cd - su0 * sd
+        du -= (du - e * (su - su0) + h) / (1.0 - e * cu)
+    sd, cd = sincos_small(du)
+    su = su0 * cd + cu0 * sd
+    cu = cu0 * cd - su0 * sd
+    # V = u + 2 atan(beta sin u / (1 - beta cos u)); the atan difference as one atan
+    beta = orbit[BETA_PHI]
+    num = beta * ((su - su0) - beta * sd)
+    den = (1.0 - beta * cu) * (1.0 - beta * cu0) + beta * beta * su * su0
+    dphi = orbit[ONE_PLUS_K] * (du + 2.0 * atan_small(num / den))
+    sf, cf = sincos_small(dphi)
+    return su, cu, sp0 * cf + cp0 * sf, cp0 * cf - sp0 * sf
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def anomaly_state(orbit, su, cu, sp, cp):
+    """State (x, y, z, vx, vy, vz) in AU, AU/yr from `orbit_anomalies`."""
     e_r = orbit[E_R]
     a_r = orbit[A_R]
     r = a_r * (1.0 - e_r * cu)
@@ -229,6 +273,13 @@ def orbit_state(orbit, t, precise=True):
     return (xp * orbit[8] + yq * orbit[11], xp * orbit[9] + yq * orbit[12],
             xp * orbit[10] + yq * orbit[13], vxp * orbit[8] + vyq * orbit[11],
             vxp * orbit[9] + vyq * orbit[12], vxp * orbit[10] + vyq * orbit[13])
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def orbit_state(orbit, t):
+    """State (x, y, z, vx, vy, vz) at coordinate time t; AU, AU/yr."""
+    su, cu, sp, cp = orbit_anomalies(orbit, t)
+    return anomaly_state(orbit, su, cu, sp, cp)
 
 
 def periapsis_advance_rad(mass_msun, a_au, e, f_sp=1.0):

@@ -5,16 +5,20 @@ one element at a time.  The functions here are straight-line arithmetic with
 selects in place of branches and are inlined into their callers, so LLVM
 turns a loop over a star's epochs into vector instructions (8 doubles at a
 time with AVX-512).  Each is accurate to a few units in the last place over
-the range stated; with precise=False (a constant at the call site, so the
-compiler keeps one branch) the series are shorter, for the Roemer delay's
-first pass, where 1e-7 is plenty.  Callers compile with error_model="numpy":
+the range stated (cbrt with precise=False: 1e-6, plenty for Kepler's
+starter; precise is a constant at the call site, so the compiler keeps one
+branch).  Series are evaluated by Horner's scheme, one
+fused multiply-add per term: the loops are bound by the count of vector
+operations.  Callers compile with error_model="numpy":
 Python's division checks would stop the vectorisation.  tests/test_vectormath.py
 checks them against numpy and 40-digit values.
 
   sincos(x)          |x| < 1e5 rad: Cody-Waite reduction by pi/2 with a
                      three-part constant, Taylor polynomials on |r| <= pi/4
+  sincos_small(x)    |x| <= 0.3: the series alone, no reduction
   atan2_right(y, x)  x > 0: three half-angle reductions, then a series
-  cbrt(x)            x >= 0: exponent third from the bit pattern, then Halley
+  atan_small(z)      |z| <= 0.2: the series alone
+  cbrt(x)            x >= 0: inverse cube root from the bit pattern, then Newton
   expm1(x)           |x| < 700: Taylor series for |x| < ln2/2, else exp(x) - 1
                      with exp reduced by ln 2 and scaled through the exponent bits
   exp(x)             the same reduction; below -708 it gives ~1e-308, not 0
@@ -46,23 +50,24 @@ _P2 = _split(_HALF_PI - Fraction(_P1), 33)
 _P3 = float(_HALF_PI - Fraction(_P1) - Fraction(_P2))
 _TWO_OVER_PI = float(1 / _HALF_PI)
 
-# 1 / (k (k + 1)) factors of the nested Taylor series of sin and cos
-# (innermost first, for Horner's scheme), to x^19 and x^20
-_S_REVERSED = tuple(1.0 / (k * (k + 1)) for k in range(18, 1, -2))
-_C_REVERSED = tuple(1.0 / (k * (k + 1)) for k in range(19, 0, -2))
+# Taylor coefficients, highest order first, for Horner's scheme (one fused
+# multiply-add per term): sin r / r = sum (-1)^k r^2k / (2k+1)! to r^18,
+# cos r = sum (-1)^k r^2k / (2k)! to r^20
+_SIN = tuple((-1) ** k / math.factorial(2 * k + 1) for k in range(9, -1, -1))
+_COS = tuple((-1) ** k / math.factorial(2 * k) for k in range(10, -1, -1))
 # odd reciprocals of the atan series z - z^3/3 + ... to z^25, innermost first
 _A_REVERSED = tuple(1.0 / k for k in range(25, 2, -2))
-# the shorter series of the coarse variants (precise=False)
-_S_COARSE, _C_COARSE, _A_COARSE = _S_REVERSED[-5:], _C_REVERSED[-6:], _A_REVERSED[-8:]
+# to x^13 and x^14, the next terms below 1e-20 for |x| <= 0.3
+_SIN_SMALL, _COS_SMALL = _SIN[-7:], _COS[-8:]
 
-_THIRD_OF_EXPONENT_BIAS = 682 << 52
+_INVERSE_CBRT_BITS = 1364 << 52     # 4/3 of the exponent bias
 _LN2 = Fraction("0.693147180559945309417232121458176568075500134360255254120680009")
 _LN2_HI = _split(_LN2, 33)
 _LN2_LO = float(_LN2 - Fraction(_LN2_HI))
 _INV_LN2 = float(1 / _LN2)
 _HALF_LN2 = float(_LN2 / 2)
-# 1 / k of the nested series e^r - 1 = r (1 + r/2 (1 + r/3 (...))), to r^15
-_E_REVERSED = tuple(1.0 / k for k in range(15, 1, -1))
+# (e^r - 1) / r = sum r^k / (k+1)! to r^14, highest order first
+_EXPM1 = tuple(1.0 / math.factorial(k + 1) for k in range(14, -1, -1))
 # 1 / (2k + 1) of log m = 2 atanh(t) = 2 (t + t^3/3 + ...), t = (m-1)/(m+1), to t^23
 _L_REVERSED = tuple(1.0 / k for k in range(23, 2, -2))
 _MANTISSA = (1 << 52) - 1
@@ -88,28 +93,20 @@ def _bits_float(typingctx, n):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def _sin_cos_series(r, sin_factors, cos_factors):
-    """sin r and cos r by their nested series (factors innermost first)."""
-    r2 = r * r
-    s = 1.0
-    for f in sin_factors:
-        s = 1.0 - r2 * f * s
-    c = 1.0
-    for f in cos_factors:
-        c = 1.0 - r2 * f * c
-    return r * s, c
+def _horner(z, coefficients):
+    """The polynomial with `coefficients` (highest order first) at z."""
+    p = coefficients[0]
+    for a in coefficients[1:]:
+        p = p * z + a
+    return p
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def sincos(x, precise=True):
-    """(sin x, cos x) for |x| < 1e5; precise=False stops the series at x^11
-    and x^12 (error below 1e-11)."""
+def sincos(x):
+    """(sin x, cos x) for |x| < 1e5."""
     j = math.floor(x * _TWO_OVER_PI + 0.5)
     r = ((x - j * _P1) - j * _P2) - j * _P3
-    if precise:
-        s, c = _sin_cos_series(r, _S_REVERSED, _C_REVERSED)
-    else:
-        s, c = _sin_cos_series(r, _S_COARSE, _C_COARSE)
+    s, c = sincos_small(r, _SIN, _COS)
     q = int(j) & 3
     odd = (q & 1) == 1
     sin_x = c if odd else s
@@ -120,7 +117,16 @@ def sincos(x, precise=True):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def _atan_series(z, coefficients):
+def sincos_small(x, sin_coefficients=_SIN_SMALL, cos_coefficients=_COS_SMALL):
+    """(sin x, cos x) by their series, with no range reduction: to rounding
+    for |x| <= 0.3 with the default (shorter) series, |x| <= pi/4 with the
+    full ones."""
+    x2 = x * x
+    return x * _horner(x2, sin_coefficients), _horner(x2, cos_coefficients)
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _atan_series(z, coefficients=_A_REVERSED):
     """atan z by its series z - z^3/3 + ... (coefficients innermost first)."""
     z2 = z * z
     p = 0.0
@@ -130,38 +136,38 @@ def _atan_series(z, coefficients):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def atan2_right(y, x, precise=True):
-    """atan2(y, x) for x > 0 (the right half-plane, |result| < pi/2);
-    precise=False halves the angle twice only (error below 2e-8)."""
+def atan_small(z):
+    """atan z to rounding for |z| <= 0.2 (relative error ~1e-15 at 0.3)."""
+    return _atan_series(z)
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def atan2_right(y, x):
+    """atan2(y, x) for x > 0 (the right half-plane, |result| < pi/2)."""
     # tan(a/2) = tan a / (1 + sec a), three times: |angle| < pi/16, |tan| < 0.2
     t = y / (x + math.sqrt(x * x + y * y))
     t = t / (1.0 + math.sqrt(1.0 + t * t))
-    if not precise:
-        return 4.0 * _atan_series(t, _A_COARSE)
     t = t / (1.0 + math.sqrt(1.0 + t * t))
-    return 8.0 * _atan_series(t, _A_REVERSED)
+    return 8.0 * _atan_series(t)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
 def cbrt(x, precise=True):
-    """Cube root of x >= 0; precise=False takes one Halley step fewer
-    (relative error below 1e-8)."""
-    # dividing the bit pattern by three divides the exponent by three: a first
-    # guess within ~10%, which three cubically convergent Halley steps refine
-    w = _bits_float(int(_float_bits(x) * (1.0 / 3.0)) + _THIRD_OF_EXPONENT_BIAS)
-    for _ in range(3 if precise else 2):
-        w3 = w * w * w
-        w *= (w3 + 2.0 * x) / (2.0 * w3 + x)
-    return w if x > 0.0 else 0.0
+    """Cube root of x >= 0, without division; precise=False takes two Newton
+    steps fewer (relative error below 1e-6)."""
+    # y -> x^(-1/3): negating a third of the bit pattern's exponent gives a
+    # first guess within ~20%, which Newton's steps y += y (1 - x y^3) / 3
+    # refine quadratically (2.8e-2, 7.9e-4, 6.2e-7, 3.8e-13, rounding)
+    y = _bits_float(_INVERSE_CBRT_BITS - int(_float_bits(x) * (1.0 / 3.0)))
+    for _ in range(5 if precise else 3):
+        y += y * (1.0 - x * y * y * y) * (1.0 / 3.0)
+    return x * y * y
 
 
 @njit(cache=True, inline="always", error_model="numpy")
 def _expm1_small(r):
     """e^r - 1 by its series, to rounding for |r| <= ln2 / 2."""
-    p = 1.0
-    for f in _E_REVERSED:
-        p = 1.0 + r * f * p
-    return r * p
+    return r * _horner(r, _EXPM1)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
