@@ -54,18 +54,20 @@ def roemer_step(t_em, t_obs, z, vz, c):
 @njit(cache=True, inline="always", error_model="numpy")
 def first_order_shift(x, y, z, vx, vy, vz, step, mu):
     """The state `step` earlier, to first order: position - v step, velocity
-    - a step.  This also keeps the result a smooth function of the orbit."""
-    r2 = x * x + y * y + z * z
-    g = mu * step / (r2 * math.sqrt(r2))
-    return x - vx * step, y - vy * step, z - vz * step, vx + g * x, vy + g * y, vz + g * z
+    - a step.  This also keeps the result a smooth function of the orbit.
+    Also returns the shifted state's inverse radius, to the same order."""
+    inv_r = 1.0 / math.sqrt(x * x + y * y + z * z)
+    g = mu * step * inv_r * inv_r * inv_r
+    inv_r_shifted = inv_r * (1.0 + (x * vx + y * vy + z * vz) * inv_r * inv_r * step)
+    return (x - vx * step, y - vy * step, z - vz * step, vx + g * x, vy + g * y, vz + g * z,
+            inv_r_shifted)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def relativistic_excess(vx, vy, vz, r, mu, c):
-    """c z_tot - v_z (same unit as c): transverse Doppler plus gravitational part."""
+def _excess(vx, vy, vz, h, c):
+    """c z_tot - v_z for h = 2 G M / (r c^2)."""
     beta_z = vz / c
     beta2 = (vx * vx + vy * vy + vz * vz) / (c * c)
-    h = 2.0 * mu / (r * c * c)
     # gamma g = (1 - s)^(-1/2) with 1 - s = (1 - beta^2)(1 - h); then
     # gamma g - 1 = s / (q (1 + q)), q = sqrt(1 - s), free of cancellation
     s = beta2 + h - beta2 * h
@@ -75,6 +77,13 @@ def relativistic_excess(vx, vy, vz, r, mu, c):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def line_of_sight_velocity(vx, vy, vz, r, mu, c, f_z):
-    """Model line-of-sight velocity v_z + f_z (c z_tot - v_z), unit of c."""
-    return vz + f_z * relativistic_excess(vx, vy, vz, r, mu, c)
+def relativistic_excess(vx, vy, vz, r, mu, c):
+    """c z_tot - v_z (same unit as c): transverse Doppler plus gravitational part."""
+    return _excess(vx, vy, vz, 2.0 * mu / (r * c * c), c)
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def line_of_sight_velocity(vx, vy, vz, inv_r, mu, c, f_z):
+    """Model line-of-sight velocity v_z + f_z (c z_tot - v_z), unit of c, at
+    inverse radius inv_r."""
+    return vz + f_z * _excess(vx, vy, vz, 2.0 * mu * inv_r / (c * c), c)

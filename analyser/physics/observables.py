@@ -70,13 +70,12 @@ def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, f
     """Epoch k's last Roemer step (first order) and its observables."""
     x, y, z, vx, vy, vz = state
     step = roemer_step(out_t_em[k], t_obs[k], z, vz, c) if light_travel else 0.0
-    x, y, z, vx, vy, vz = first_order_shift(x, y, z, vx, vy, vz, step, mu)
+    x, y, z, vx, vy, vz, inv_r = first_order_shift(x, y, z, vx, vy, vz, step, mu)
     out_t_em[k] -= step
     dt = t_obs[k] - frame[5]
     out_x[k] = x * mas_per_au + frame[0] + frame[2] * dt
     out_y[k] = y * mas_per_au + frame[1] + frame[3] * dt
-    r = math.sqrt(x * x + y * y + z * z)
-    v = line_of_sight_velocity(vx, vy, vz, r, mu, c, f_z) * KM_S_PER_AU_YR + frame[4]
+    v = line_of_sight_velocity(vx, vy, vz, inv_r, mu, c, f_z) * KM_S_PER_AU_YR + frame[4]
     out_v[k] = v if need_v[k] else np.nan
 
 
