@@ -280,7 +280,9 @@ def star_figure(bundle, star, out_dir):
                        np.r_[astro["y"][sel], g["y0_mas"]], pad=0.1)
         sky_axes(sky)
         compass(sky)
-        sky.legend(loc="upper left", fontsize=6.5, handlelength=1.4, ncol=1)
+        # a translucent box keeps the legend legible where the orbit runs under it
+        sky.legend(loc="upper left", fontsize=6.5, handlelength=1.4, ncol=1, frameon=True,
+                   framealpha=0.8, facecolor="white", edgecolor="none")
         vax.set_ylabel("$v_z$ (km s$^{-1}$)")
         if not has_v:
             vax.text(0.02, 0.95, "no velocities measured: curves are predictions",
