@@ -59,6 +59,8 @@ _COS = tuple((-1) ** k / math.factorial(2 * k) for k in range(10, -1, -1))
 _A_REVERSED = tuple(1.0 / k for k in range(25, 2, -2))
 # to x^13 and x^14, the next terms below 1e-20 for |x| <= 0.3
 _SIN_SMALL, _COS_SMALL = _SIN[-7:], _COS[-8:]
+# to x^3 and x^4, for sincos_small with |x| <= 1e-3 (the next terms below 1e-17)
+SIN_TINY, COS_TINY = _SIN[-2:], _COS[-3:]
 
 _INVERSE_CBRT_BITS = 1364 << 52     # 4/3 of the exponent bias
 _LN2 = Fraction("0.693147180559945309417232121458176568075500134360255254120680009")
