@@ -225,9 +225,16 @@ def _weighted_moments(x, w=None):
 
 
 def test_block_engine_agrees_with_stock_dynesty(tmp_path):
-    """Same posterior and evidence as the stock run on the original prior
-    with dynesty's own rslice sampler, and as importance sampling from the
-    Laplace approximation (ESS ~8600 here, the sharpest reference).
+    """Same posterior as the stock run on the original prior with dynesty's
+    own rslice sampler, and the same posterior and evidence as importance
+    sampling from the Laplace approximation (ESS ~8600 here, the sharpest
+    reference).
+
+    The stock run's evidence is no reference: with these default settings
+    it comes out high.  Measured on this campaign, importance sampling
+    -224.95 +- 0.01; stock, seeds 8, 9, 10: -222.16, -223.61, -222.74
+    (quoted errors ~0.72); this engine, seeds 7, 11, 12: -225.10, -224.74,
+    -225.07 (errors ~0.23).
 
     Posteriors are compared by each global's mean (within 0.3 posterior
     sigma) and width (within 20%).  A two-sample KS test is no fair judge of
@@ -255,8 +262,6 @@ def test_block_engine_agrees_with_stock_dynesty(tmp_path):
             name = model.layout.free_names[k]
             assert abs(m_a[k] - m_o[k]) < 0.3 * s_ref[k], name
             assert 0.8 < s_a[k] / s_o[k] < 1.25, name
-    err = math.hypot(fast.results.logzerr[-1], stock.results.logzerr[-1])
-    assert abs(fast.results.logz[-1] - stock.results.logz[-1]) < 3.0 * err + 0.1
     assert abs(fast.results.logz[-1] - imp.log_z) < 3.0 * math.hypot(
         fast.results.logzerr[-1], imp.log_z_err) + 0.1
 
