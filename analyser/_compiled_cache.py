@@ -1,4 +1,12 @@
-"""Where numba keeps the package's compiled functions.
+"""How numba compiles the package's functions, and where it keeps them.
+
+The compiled loops (Kepler's equation, series, the likelihood) are long
+chains of dependent vector operations.  With one vector of epochs in flight
+per iteration a core with a small reorder window waits on latencies, so
+LLVM's loop vectoriser is told to interleave two vectors per iteration
+(LOOP_INTERLEAVE; the option holds for the whole process).  Measured side by
+side on AMD Zen 1 (AVX2): Kepler's solver 1.66x, the forward model 1.3x and
+the likelihood 1.27x faster, with identical results.
 
 numba's on-disk cache is keyed on each function's own source file, so a
 change in one module can leave stale machine code for compiled callers in
@@ -19,8 +27,13 @@ def source_digest(package_dir):
     return h.hexdigest()[:16]
 
 
+LOOP_INTERLEAVE = 2
+
+
 def configure(package_dir):
+    import llvmlite.binding
     import numba
+    llvmlite.binding.set_option("", f"-force-vector-interleave={LOOP_INTERLEAVE}")
     base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
     folder = Path(base) / "analyser" / f"numba-{source_digest(package_dir)}"
     try:

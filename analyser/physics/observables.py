@@ -121,7 +121,8 @@ def _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, li
 
 
 # Loops run over a multiple of this many epochs (8 doubles fill an AVX-512
-# register): the compiler's scalar remainder loop costs several times more.
+# register, or two interleaved AVX2 ones): the compiler's scalar remainder
+# loop costs several times more.
 LANES = 8
 
 

@@ -9,7 +9,9 @@ the range stated (cbrt with precise=False: 1e-6, plenty for Kepler's
 starter; precise is a constant at the call site, so the compiler keeps one
 branch).  Series are evaluated by Horner's scheme, one
 fused multiply-add per term: the loops are bound by the count of vector
-operations.  Callers compile with error_model="numpy":
+operations.  Conversions between floats and integers go through 32-bit
+integers: AVX2 converts packed int32 but not int64, which it does one
+element at a time.  Callers compile with error_model="numpy":
 Python's division checks would stop the vectorisation.  tests/test_vectormath.py
 checks them against numpy and 40-digit values.
 
@@ -29,6 +31,7 @@ checks them against numpy and 40-digit values.
 import math
 from fractions import Fraction
 
+import numpy as np
 from llvmlite import ir
 from numba import njit, types
 from numba.extending import intrinsic
@@ -62,7 +65,7 @@ _SIN_SMALL, _COS_SMALL = _SIN[-7:], _COS[-8:]
 # to x^3 and x^4, for sincos_small with |x| <= 1e-3 (the next terms below 1e-17)
 SIN_TINY, COS_TINY = _SIN[-2:], _COS[-3:]
 
-_INVERSE_CBRT_BITS = 1364 << 52     # 4/3 of the exponent bias
+_INVERSE_CBRT_HIGH = 1364 << 20     # 4/3 of the exponent bias, in the high 32 bits
 _LN2 = Fraction("0.693147180559945309417232121458176568075500134360255254120680009")
 _LN2_HI = _split(_LN2, 33)
 _LN2_LO = float(_LN2 - Fraction(_LN2_HI))
@@ -109,7 +112,7 @@ def sincos(x):
     j = math.floor(x * _TWO_OVER_PI + 0.5)
     r = ((x - j * _P1) - j * _P2) - j * _P3
     s, c = sincos_small(r, _SIN, _COS)
-    q = int(j) & 3
+    q = np.int32(j) & 3
     odd = (q & 1) == 1
     sin_x = c if odd else s
     cos_x = s if odd else c
@@ -160,10 +163,17 @@ def cbrt(x, precise=True):
     # y -> x^(-1/3): negating a third of the bit pattern's exponent gives a
     # first guess within ~20%, which Newton's steps y += y (1 - x y^3) / 3
     # refine quadratically (2.8e-2, 7.9e-4, 6.2e-7, 3.8e-13, rounding)
-    y = _bits_float(_INVERSE_CBRT_BITS - int(_float_bits(x) * (1.0 / 3.0)))
+    high = np.int32(_float_bits(x) >> 32)      # sign, exponent, 20 mantissa bits
+    y = _bits_float(np.int64(_INVERSE_CBRT_HIGH - np.int32(high * (1.0 / 3.0))) << 32)
     for _ in range(5 if precise else 3):
         y += y * (1.0 - x * y * y * y) * (1.0 / 3.0)
     return x * y * y
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _two_to(n):
+    """2^n for an integral float n, |n| <= 1022, through the exponent bits."""
+    return _bits_float((np.int64(np.int32(n)) + 1023) << 52)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -177,7 +187,7 @@ def expm1(x):
     """e^x - 1 for |x| < 700, to a few units in the last place."""
     n = math.floor(x * _INV_LN2 + 0.5)
     r = (x - n * _LN2_HI) - n * _LN2_LO
-    scale = _bits_float((int(n) + 1023) << 52)
+    scale = _two_to(n)
     large = scale * (1.0 + _expm1_small(r)) - 1.0
     return _expm1_small(x) if abs(x) < _HALF_LN2 else large
 
@@ -188,14 +198,14 @@ def exp(x):
     x = x if x > -708.0 else -708.0
     n = math.floor(x * _INV_LN2 + 0.5)
     r = (x - n * _LN2_HI) - n * _LN2_LO
-    return _bits_float((int(n) + 1023) << 52) * (1.0 + _expm1_small(r))
+    return _two_to(n) * (1.0 + _expm1_small(r))
 
 
 @njit(cache=True, inline="always", error_model="numpy")
 def log(x):
     """Natural logarithm of a positive normal x (log 1 is exactly 0)."""
     bits = _float_bits(x)
-    k = (bits >> 52) - 1023
+    k = np.int32((bits >> 52) - 1023)
     m = _bits_float((bits & _MANTISSA) | (1023 << 52))      # in [1, 2)
     big = m > _SQRT_TWO
     m = 0.5 * m if big else m
