@@ -38,7 +38,7 @@ def kepler_unchecked(mean_anomaly, e):
 
     Divisions are few (four): in SIMD code they cost several times a
     multiplication, and they dominated this solver."""
-    turns = math.floor((mean_anomaly + math.pi) / _TWO_PI)
+    turns = np.floor((mean_anomaly + math.pi) / _TWO_PI)   # a float: math.floor is an int in numba
     m_signed = mean_anomaly - turns * _TWO_PI
     m = abs(m_signed)
     sign = math.copysign(1.0, m_signed)

@@ -9,9 +9,11 @@ the range stated (cbrt with precise=False: 1e-6, plenty for Kepler's
 starter; precise is a constant at the call site, so the compiler keeps one
 branch).  Series are evaluated by Horner's scheme, one
 fused multiply-add per term: the loops are bound by the count of vector
-operations.  Conversions between floats and integers go through 32-bit
-integers: AVX2 converts packed int32 but not int64, which it does one
-element at a time.  Callers compile with error_model="numpy":
+operations.  Floats and integers are converted by adding 1.5 * 2^52 and
+reading the bits (`_integer`, `_as_float`), never by the conversion
+instructions: AVX2 has none for packed 64-bit integers, so LLVM would convert
+one element at a time.  For the same reason floors are np.floor, a float:
+numba's math.floor returns an integer.  Callers compile with error_model="numpy":
 Python's division checks would stop the vectorisation.  tests/test_vectormath.py
 checks them against numpy and 40-digit values.
 
@@ -97,6 +99,24 @@ def _bits_float(typingctx, n):
     return sig, codegen
 
 
+# 1.5 * 2^52: adding it to a float of magnitude below 2^51 rounds the sum to
+# an integer held in the low bits of the mantissa, in two's complement
+_ROUNDING = 6755399441055744.0
+_ROUNDING_BITS = 0x4338000000000000
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _integer(x):
+    """x rounded to the nearest integer, as int64, for |x| < 2^51."""
+    return _float_bits(x + _ROUNDING) - _ROUNDING_BITS
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _as_float(n):
+    """The int64 n as a float, for |n| < 2^51."""
+    return _bits_float(n + _ROUNDING_BITS) - _ROUNDING
+
+
 @njit(cache=True, inline="always", error_model="numpy")
 def _horner(z, coefficients):
     """The polynomial with `coefficients` (highest order first) at z."""
@@ -109,10 +129,10 @@ def _horner(z, coefficients):
 @njit(cache=True, inline="always", error_model="numpy")
 def sincos(x):
     """(sin x, cos x) for |x| < 1e5."""
-    j = math.floor(x * _TWO_OVER_PI + 0.5)
+    j = np.floor(x * _TWO_OVER_PI + 0.5)
     r = ((x - j * _P1) - j * _P2) - j * _P3
     s, c = sincos_small(r, _SIN, _COS)
-    q = np.int32(j) & 3
+    q = _integer(j) & 3
     odd = (q & 1) == 1
     sin_x = c if odd else s
     cos_x = s if odd else c
@@ -163,8 +183,8 @@ def cbrt(x, precise=True):
     # y -> x^(-1/3): negating a third of the bit pattern's exponent gives a
     # first guess within ~20%, which Newton's steps y += y (1 - x y^3) / 3
     # refine quadratically (2.8e-2, 7.9e-4, 6.2e-7, 3.8e-13, rounding)
-    high = np.int32(_float_bits(x) >> 32)      # sign, exponent, 20 mantissa bits
-    y = _bits_float(np.int64(_INVERSE_CBRT_HIGH - np.int32(high * (1.0 / 3.0))) << 32)
+    high = _as_float(_float_bits(x) >> 32)      # exponent and 20 mantissa bits
+    y = _bits_float((_INVERSE_CBRT_HIGH - _integer(high * (1.0 / 3.0))) << 32)
     for _ in range(5 if precise else 3):
         y += y * (1.0 - x * y * y * y) * (1.0 / 3.0)
     return x * y * y
@@ -173,7 +193,7 @@ def cbrt(x, precise=True):
 @njit(cache=True, inline="always", error_model="numpy")
 def _two_to(n):
     """2^n for an integral float n, |n| <= 1022, through the exponent bits."""
-    return _bits_float((np.int64(np.int32(n)) + 1023) << 52)
+    return _bits_float((_integer(n) + 1023) << 52)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -185,7 +205,7 @@ def _expm1_small(r):
 @njit(cache=True, inline="always", error_model="numpy")
 def expm1(x):
     """e^x - 1 for |x| < 700, to a few units in the last place."""
-    n = math.floor(x * _INV_LN2 + 0.5)
+    n = np.floor(x * _INV_LN2 + 0.5)
     r = (x - n * _LN2_HI) - n * _LN2_LO
     scale = _two_to(n)
     large = scale * (1.0 + _expm1_small(r)) - 1.0
@@ -196,7 +216,7 @@ def expm1(x):
 def exp(x):
     """e^x for x < 709 (x below -708 gives e^-708, not 0 or a subnormal)."""
     x = x if x > -708.0 else -708.0
-    n = math.floor(x * _INV_LN2 + 0.5)
+    n = np.floor(x * _INV_LN2 + 0.5)
     r = (x - n * _LN2_HI) - n * _LN2_LO
     return _two_to(n) * (1.0 + _expm1_small(r))
 
@@ -205,7 +225,7 @@ def exp(x):
 def log(x):
     """Natural logarithm of a positive normal x (log 1 is exactly 0)."""
     bits = _float_bits(x)
-    k = np.int32((bits >> 52) - 1023)
+    k = _as_float((bits >> 52) - 1023)
     m = _bits_float((bits & _MANTISSA) | (1023 << 52))      # in [1, 2)
     big = m > _SQRT_TWO
     m = 0.5 * m if big else m
