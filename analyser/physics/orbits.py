@@ -261,10 +261,14 @@ def anomaly_state(orbit, su, cu, sp, cp):
     """State (x, y, z, vx, vy, vz) in AU, AU/yr from `orbit_anomalies`."""
     e_r = orbit[E_R]
     a_r = orbit[A_R]
-    r = a_r * (1.0 - e_r * cu)
-    udot = orbit[MEAN_MOTION] / (1.0 - orbit[E_T] * cu)
+    den_r = 1.0 - e_r * cu
+    r = a_r * den_r
+    # du/dt = n / (1 - e_t cos u), dphi/dt = (1 + k) sqrt(1 - e_phi^2) / den_r du/dt:
+    # one division for both
+    n_inv = orbit[MEAN_MOTION] / ((1.0 - orbit[E_T] * cu) * den_r)
+    udot = n_inv * den_r
     rdot = a_r * e_r * su * udot
-    phidot = orbit[ONE_PLUS_K] * orbit[ROOT_PHI] / (1.0 - e_r * cu) * udot
+    phidot = orbit[ONE_PLUS_K] * orbit[ROOT_PHI] * n_inv
     # in-plane components along P (periapsis) and Q
     xp = r * cp
     yq = r * sp

@@ -23,8 +23,8 @@ checks them against numpy and 40-digit values.
   atan2_right(y, x)  x > 0: three half-angle reductions, then a series
   atan_small(z)      |z| <= 0.2: the series alone
   cbrt(x)            x >= 0: inverse cube root from the bit pattern, then Newton
-  expm1(x)           |x| < 700: Taylor series for |x| < ln2/2, else exp(x) - 1
-                     with exp reduced by ln 2 and scaled through the exponent bits
+  expm1(x)           |x| < 700: reduced by ln 2, 2^n (e^r - 1) + (2^n - 1), one
+                     Taylor series; 2^n through the exponent bits
   exp(x)             the same reduction; below -708 it gives ~1e-308, not 0
   log(x)             x > 0 normal: exponent from the bits, atanh series on the
                      mantissa in [sqrt(1/2), sqrt(2))
@@ -72,7 +72,6 @@ _LN2 = Fraction("0.6931471805599453094172321214581765680755001343602552541206800
 _LN2_HI = _split(_LN2, 33)
 _LN2_LO = float(_LN2 - Fraction(_LN2_HI))
 _INV_LN2 = float(1 / _LN2)
-_HALF_LN2 = float(_LN2 / 2)
 # (e^r - 1) / r = sum r^k / (k+1)! to r^14, highest order first
 _EXPM1 = tuple(1.0 / math.factorial(k + 1) for k in range(14, -1, -1))
 # 1 / (2k + 1) of log m = 2 atanh(t) = 2 (t + t^3/3 + ...), t = (m-1)/(m+1), to t^23
@@ -204,12 +203,15 @@ def _expm1_small(r):
 
 @njit(cache=True, inline="always", error_model="numpy")
 def expm1(x):
-    """e^x - 1 for |x| < 700, to a few units in the last place."""
+    """e^x - 1 for |x| < 700, to a few units in the last place.
+
+    With x = n ln2 + r: e^x - 1 = 2^n (e^r - 1) + (2^n - 1), one series for
+    every x; for |x| < ln2/2, n = 0 and it is the series of x alone, free of
+    cancellation (2^n - 1 is exact wherever it matters)."""
     n = np.floor(x * _INV_LN2 + 0.5)
     r = (x - n * _LN2_HI) - n * _LN2_LO
     scale = _two_to(n)
-    large = scale * (1.0 + _expm1_small(r)) - 1.0
-    return _expm1_small(x) if abs(x) < _HALF_LN2 else large
+    return scale * _expm1_small(r) + (scale - 1.0)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
