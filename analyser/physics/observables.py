@@ -120,9 +120,11 @@ def _observe_orbit_loops(orbit, t_obs, need_v, mu, c, f_z, mas_per_au, frame, li
                       out_x, out_y, out_v, out_t_em)
 
 
-# Loops run over a multiple of this many epochs (8 doubles fill an AVX-512
-# register, or two interleaved AVX2 ones): the compiler's scalar remainder
-# loop costs several times more.
+# Loops run over a multiple of this many epochs, the vectorised loop's step:
+# two interleaved vectors of 4 doubles (LLVM keeps to 256-bit vectors on AVX2
+# and AVX-512 cores alike; seen in the code compiled for znver1, znver4,
+# znver5, skylake-avx512 and sapphirerapids).  The compiler's scalar
+# remainder loop costs several times more.
 LANES = 8
 
 

@@ -3,8 +3,8 @@
 libm's sin, cos, atan2 and pow are opaque calls, so a loop that uses them runs
 one element at a time.  The functions here are straight-line arithmetic with
 selects in place of branches and are inlined into their callers, so LLVM
-turns a loop over a star's epochs into vector instructions (8 doubles at a
-time with AVX-512).  Each is accurate to a few units in the last place over
+turns a loop over a star's epochs into vector instructions (4 doubles per
+vector, two vectors per iteration: see analyser/_compiled_cache.py).  Each is accurate to a few units in the last place over
 the range stated (cbrt with precise=False: 1e-6, plenty for Kepler's
 starter; precise is a constant at the call site, so the compiler keeps one
 branch).  Series are evaluated by Horner's scheme, one
