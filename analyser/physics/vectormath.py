@@ -4,18 +4,19 @@ libm's sin, cos, atan2 and pow are opaque calls, so a loop that uses them runs
 one element at a time.  The functions here are straight-line arithmetic with
 selects in place of branches and are inlined into their callers, so LLVM
 turns a loop over a star's epochs into vector instructions (4 doubles per
-vector, two vectors per iteration: see analyser/_compiled_cache.py).  Each is accurate to a few units in the last place over
-the range stated (cbrt with precise=False: 1e-6, plenty for Kepler's
-starter; precise is a constant at the call site, so the compiler keeps one
-branch).  Series are evaluated by Horner's scheme, one
-fused multiply-add per term: the loops are bound by the count of vector
-operations.  Floats and integers are converted by adding 1.5 * 2^52 and
-reading the bits (`_integer`, `_as_float`), never by the conversion
-instructions: AVX2 has none for packed 64-bit integers, so LLVM would convert
-one element at a time.  For the same reason floors are np.floor, a float:
-numba's math.floor returns an integer.  Callers compile with error_model="numpy":
-Python's division checks would stop the vectorisation.  tests/test_vectormath.py
-checks them against numpy and 40-digit values.
+vector, two vectors per iteration: see analyser/_compiled_cache.py).  Each is
+accurate to a few units in the last place over the range stated (cbrt with
+precise=False: 1e-6, plenty for Kepler's starter; precise is a constant at
+the call site, so the compiler keeps one branch).  Series are evaluated by
+Horner's scheme, one fused multiply-add per term, and divisions are few:
+vector operations, and their latency, are what the loops spend.  Floats and
+integers are converted by adding 1.5 * 2^52 and reading the bits (`_integer`,
+`_as_float`), never by the conversion instructions: AVX2 has none for packed
+64-bit integers, so LLVM would convert one element at a time.  For the same
+reason floors are np.floor, a float: numba's math.floor returns an integer.
+Callers compile with error_model="numpy": Python's division checks would stop
+the vectorisation.  tests/test_vectormath.py checks them against numpy and
+40-digit values.
 
   sincos(x)          |x| < 1e5 rad: Cody-Waite reduction by pi/2 with a
                      three-part constant, Taylor polynomials on |r| <= pi/4
