@@ -197,6 +197,13 @@ def _two_to(n):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
+def _reduce_ln2(x):
+    """(2^n, r) with x = n ln2 + r, |r| <= ln2 / 2, for |x| < 709."""
+    n = np.floor(x * _INV_LN2 + 0.5)
+    return _two_to(n), (x - n * _LN2_HI) - n * _LN2_LO
+
+
+@njit(cache=True, inline="always", error_model="numpy")
 def _expm1_small(r):
     """e^r - 1 by its series, to rounding for |r| <= ln2 / 2."""
     return r * _horner(r, _EXPM1)
@@ -209,19 +216,15 @@ def expm1(x):
     With x = n ln2 + r: e^x - 1 = 2^n (e^r - 1) + (2^n - 1), one series for
     every x; for |x| < ln2/2, n = 0 and it is the series of x alone, free of
     cancellation (2^n - 1 is exact wherever it matters)."""
-    n = np.floor(x * _INV_LN2 + 0.5)
-    r = (x - n * _LN2_HI) - n * _LN2_LO
-    scale = _two_to(n)
+    scale, r = _reduce_ln2(x)
     return scale * _expm1_small(r) + (scale - 1.0)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
 def exp(x):
     """e^x for x < 709 (x below -708 gives e^-708, not 0 or a subnormal)."""
-    x = x if x > -708.0 else -708.0
-    n = np.floor(x * _INV_LN2 + 0.5)
-    r = (x - n * _LN2_HI) - n * _LN2_LO
-    return _two_to(n) * (1.0 + _expm1_small(r))
+    scale, r = _reduce_ln2(x if x > -708.0 else -708.0)
+    return scale * (1.0 + _expm1_small(r))
 
 
 @njit(cache=True, inline="always", error_model="numpy")
