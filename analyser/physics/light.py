@@ -53,11 +53,11 @@ def roemer_step(t_em, t_obs, z, vz, c):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def first_order_shift(x, y, z, vx, vy, vz, step, mu):
+def first_order_shift(x, y, z, vx, vy, vz, inv_r, step, mu):
     """The state `step` earlier, to first order: position - v step, velocity
     - a step.  This also keeps the result a smooth function of the orbit.
-    Also returns the shifted state's inverse radius, to the same order."""
-    inv_r = 1.0 / math.sqrt(x * x + y * y + z * z)
+    inv_r is the state's inverse radius; also returns the shifted state's,
+    to the same order."""
     g = mu * step * inv_r * inv_r * inv_r
     inv_r_shifted = inv_r * (1.0 + (x * vx + y * vy + z * vz) * inv_r * inv_r * step)
     return (x - vx * step, y - vy * step, z - vz * step, vx + g * x, vy + g * y, vz + g * z,

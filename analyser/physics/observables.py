@@ -28,8 +28,9 @@ from .elements import ELEMENT_KEYS, semi_major_axis_au
 from .integrator import STEPS_PER_ORBIT, integrate_nodes, nodes_state
 from .kepler import E_MAX
 from .light import first_order_shift, line_of_sight_velocity, newton_passes, roemer_step
-from .orbits import (MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, anomaly_state, earlier_anomalies,
-                     orbit_anomalies, orbit_constants, orbit_is_bound, orbit_state, orbit_tuple)
+from .orbits import (MEAN_MOTION, ONE_PLUS_K, ORBIT_SIZE, anomaly_state_inv_r,
+                     earlier_anomalies, orbit_anomalies, orbit_constants, orbit_is_bound,
+                     orbit_state, orbit_tuple)
 
 DYNAMICS = ("kepler", "analytic-1pn", "numerical-1pn")
 GLOBAL_KEYS = ("mass_msun", "distance_pc", "x0_mas", "y0_mas", "vx0_mas_yr",
@@ -67,10 +68,11 @@ def build_orbits(elements, mu, eps):
 @njit(cache=True, inline="always", error_model="numpy")
 def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
                 out_x, out_y, out_v, out_t_em):
-    """Epoch k's last Roemer step (first order) and its observables."""
-    x, y, z, vx, vy, vz = state
+    """Epoch k's last Roemer step (first order) and its observables, from
+    the state (x, y, z, vx, vy, vz, 1/r) at the last trial emission epoch."""
+    x, y, z, vx, vy, vz, inv_r = state
     step = roemer_step(out_t_em[k], t_obs[k], z, vz, c) if light_travel else 0.0
-    x, y, z, vx, vy, vz, inv_r = first_order_shift(x, y, z, vx, vy, vz, step, mu)
+    x, y, z, vx, vy, vz, inv_r = first_order_shift(x, y, z, vx, vy, vz, inv_r, step, mu)
     out_t_em[k] -= step
     dt = t_obs[k] - frame[5]
     out_x[k] = x * mas_per_au + frame[0] + frame[2] * dt
@@ -81,16 +83,17 @@ def _final_step(k, state, light_travel, t_obs, need_v, mu, c, f_z, mas_per_au, f
 
 @njit(cache=True, inline="always", error_model="numpy")
 def _emission_state(orbit, t, c, passes):
-    """State at the emission time of light arriving at t, and that time, after
-    `passes` Newton steps on the Roemer delay.  One Kepler solve at t; the
-    states at the trial emission times are shifted from it (light.py)."""
+    """State and inverse radius at the emission time of light arriving at t,
+    and that time, after `passes` Newton steps on the Roemer delay.  One
+    Kepler solve at t; the states at the trial emission times are shifted
+    from it (light.py)."""
     su0, cu0, sp0, cp0 = orbit_anomalies(orbit, t)
-    state = anomaly_state(orbit, su0, cu0, sp0, cp0)
+    state = anomaly_state_inv_r(orbit, su0, cu0, sp0, cp0)
     delay = 0.0
     for _ in range(passes):
         delay += roemer_step(t - delay, t, state[2], state[5], c)
         su, cu, sp, cp = earlier_anomalies(orbit, su0, cu0, sp0, cp0, delay)
-        state = anomaly_state(orbit, su, cu, sp, cp)
+        state = anomaly_state_inv_r(orbit, su, cu, sp, cp)
     return state, t - delay
 
 
@@ -216,9 +219,10 @@ def observe_integrated(nodes, par, t_obs, need_v, mu, c, f_z, mas_per_au, frame,
             x, y, z, vx, vy, vz = nodes_state(nodes, par[0], par[1], par[2], out_t_em[k])
             out_t_em[k] -= roemer_step(out_t_em[k], t_obs[k], z, vz, c)
     for k in range(n):
-        _final_step(k, nodes_state(nodes, par[0], par[1], par[2], out_t_em[k]), light_travel,
-                    t_obs, need_v, mu, c, f_z, mas_per_au, frame, out_x, out_y, out_v,
-                    out_t_em)
+        x, y, z, vx, vy, vz = nodes_state(nodes, par[0], par[1], par[2], out_t_em[k])
+        inv_r = 1.0 / math.sqrt(x * x + y * y + z * z)
+        _final_step(k, (x, y, z, vx, vy, vz, inv_r), light_travel, t_obs, need_v, mu, c, f_z,
+                    mas_per_au, frame, out_x, out_y, out_v, out_t_em)
 
 
 @njit(cache=True)

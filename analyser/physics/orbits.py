@@ -261,18 +261,20 @@ def earlier_anomalies(orbit, su0, cu0, sp0, cp0, delay):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def anomaly_state(orbit, su, cu, sp, cp):
-    """State (x, y, z, vx, vy, vz) in AU, AU/yr from `orbit_anomalies`."""
+def anomaly_state_inv_r(orbit, su, cu, sp, cp):
+    """(x, y, z, vx, vy, vz, 1/r) in AU, AU/yr, 1/AU from `orbit_anomalies`."""
     e_r = orbit[E_R]
     a_r = orbit[A_R]
     den_r = 1.0 - e_r * cu
     r = a_r * den_r
+    den_t = 1.0 - orbit[E_T] * cu
     # du/dt = n / (1 - e_t cos u), dphi/dt = (1 + k) sqrt(1 - e_phi^2) / den_r du/dt:
-    # one division for both
-    n_inv = orbit[MEAN_MOTION] / ((1.0 - orbit[E_T] * cu) * den_r)
+    # one division for both, and for 1/r (1 / (n a_r) is the same for all epochs)
+    n_inv = orbit[MEAN_MOTION] / (den_t * den_r)
     udot = n_inv * den_r
     rdot = a_r * e_r * su * udot
     phidot = orbit[ONE_PLUS_K] * orbit[ROOT_PHI] * n_inv
+    inv_r = n_inv * den_t * (1.0 / (orbit[MEAN_MOTION] * a_r))
     # in-plane components along P (periapsis) and Q
     xp = r * cp
     yq = r * sp
@@ -280,7 +282,14 @@ def anomaly_state(orbit, su, cu, sp, cp):
     vyq = rdot * sp + r * phidot * cp
     return (xp * orbit[8] + yq * orbit[11], xp * orbit[9] + yq * orbit[12],
             xp * orbit[10] + yq * orbit[13], vxp * orbit[8] + vyq * orbit[11],
-            vxp * orbit[9] + vyq * orbit[12], vxp * orbit[10] + vyq * orbit[13])
+            vxp * orbit[9] + vyq * orbit[12], vxp * orbit[10] + vyq * orbit[13], inv_r)
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def anomaly_state(orbit, su, cu, sp, cp):
+    """State (x, y, z, vx, vy, vz) in AU, AU/yr from `orbit_anomalies`."""
+    x, y, z, vx, vy, vz, _ = anomaly_state_inv_r(orbit, su, cu, sp, cp)
+    return x, y, z, vx, vy, vz
 
 
 @njit(cache=True, inline="always", error_model="numpy")

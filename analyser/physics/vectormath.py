@@ -21,7 +21,7 @@ the vectorisation.  tests/test_vectormath.py checks them against numpy and
   sincos(x)          |x| < 1e5 rad: Cody-Waite reduction by pi/2 with a
                      three-part constant, Taylor polynomials on |r| <= pi/4
   sincos_small(x)    |x| <= 0.3: the series alone, no reduction
-  atan2_right(y, x)  x > 0: three half-angle reductions, then a series
+  atan2_right(y, x)  x > 0: folded by octant to |t| <= tan(pi/8), then a series
   atan_small(z)      |z| <= 0.2: the series alone
   cbrt(x)            x >= 0: inverse cube root from the bit pattern, then Newton
   expm1(x)           |x| < 700: reduced by ln 2, 2^n (e^r - 1) + (2^n - 1), one
@@ -61,8 +61,14 @@ _TWO_OVER_PI = float(1 / _HALF_PI)
 # cos r = sum (-1)^k r^2k / (2k)! to r^20
 _SIN = tuple((-1) ** k / math.factorial(2 * k + 1) for k in range(9, -1, -1))
 _COS = tuple((-1) ** k / math.factorial(2 * k) for k in range(10, -1, -1))
-# odd reciprocals of the atan series z - z^3/3 + ... to z^25, innermost first
-_A_REVERSED = tuple(1.0 / k for k in range(25, 2, -2))
+# atan z / z = sum (-1)^k z^2k / (2k+1), highest order first: to z^24 for
+# |z| <= 0.2, to z^42 for |z| <= tan(pi/8) (the next terms below 2e-18)
+_ATAN = tuple((-1) ** k / (2 * k + 1) for k in range(12, -1, -1))
+_ATAN_OCTANT = tuple((-1) ** k / (2 * k + 1) for k in range(21, -1, -1))
+_TAN_PI_8 = math.sqrt(2.0) - 1.0
+_TAN_3PI_8 = math.sqrt(2.0) + 1.0
+_QUARTER_PI_F = float(_PI / 4)
+_HALF_PI_F = float(_PI / 2)
 # to x^13 and x^14, the next terms below 1e-20 for |x| <= 0.3
 _SIN_SMALL, _COS_SMALL = _SIN[-7:], _COS[-8:]
 # to x^3 and x^4, for sincos_small with |x| <= 1e-3 (the next terms below 1e-17)
@@ -127,6 +133,25 @@ def _horner(z, coefficients):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
+def _horner_split(z, coefficients):
+    """`_horner` for long series: Horner's scheme on the even and the odd
+    powers separately, in z^2, then even(z^2) + z odd(z^2).  LLVM unrolls
+    loops of a dozen terms, not of twenty (a loop left inside stops the
+    vectorisation of the loop over epochs), and the two chains are half as
+    long.  Tuple slices and len are resolved at compile time."""
+    z2 = z * z
+    p = 0.0
+    for a in coefficients[0::2]:     # powers n-1, n-3, ...
+        p = p * z2 + a
+    q = 0.0
+    for a in coefficients[1::2]:     # powers n-2, n-4, ...
+        q = q * z2 + a
+    if len(coefficients) % 2 == 1:   # p holds the even powers
+        return p + z * q
+    return z * p + q
+
+
+@njit(cache=True, inline="always", error_model="numpy")
 def sincos(x):
     """(sin x, cos x) for |x| < 1e5."""
     j = np.floor(x * _TWO_OVER_PI + 0.5)
@@ -151,29 +176,26 @@ def sincos_small(x, sin_coefficients=_SIN_SMALL, cos_coefficients=_COS_SMALL):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
-def _atan_series(z, coefficients=_A_REVERSED):
-    """atan z by its series z - z^3/3 + ... (coefficients innermost first)."""
-    z2 = z * z
-    p = 0.0
-    for a in coefficients:
-        p = a - z2 * p
-    return z * (1.0 - z2 * p)
-
-
-@njit(cache=True, inline="always", error_model="numpy")
 def atan_small(z):
     """atan z to rounding for |z| <= 0.2 (relative error ~1e-15 at 0.3)."""
-    return _atan_series(z)
+    return z * _horner(z * z, _ATAN)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
 def atan2_right(y, x):
     """atan2(y, x) for x > 0 (the right half-plane, |result| < pi/2)."""
-    # tan(a/2) = tan a / (1 + sec a), three times: |angle| < pi/16, |tan| < 0.2
-    t = y / (x + math.sqrt(x * x + y * y))
-    t = t / (1.0 + math.sqrt(1.0 + t * t))
-    t = t / (1.0 + math.sqrt(1.0 + t * t))
-    return 8.0 * _atan_series(t)
+    # atan(|y|/x) = offset + atan t with, by the angle's octant, t = |y|/x
+    # (offset 0), (|y| - x)/(|y| + x) (pi/4) or -x/|y| (pi/2), so that
+    # |t| <= tan(pi/8): one division and no square root (three half-angle
+    # reductions took three of each; the forward model is 5% faster)
+    a = abs(y)
+    low = a <= _TAN_PI_8 * x
+    high = a > _TAN_3PI_8 * x
+    num = a if low else (-x if high else a - x)
+    den = x if low else (a if high else a + x)
+    offset = 0.0 if low else (_HALF_PI_F if high else _QUARTER_PI_F)
+    t = num / den
+    return math.copysign(offset + t * _horner_split(t * t, _ATAN_OCTANT), y)
 
 
 @njit(cache=True, inline="always", error_model="numpy")
